@@ -1,0 +1,3 @@
+// The doctest main, alone in its translation unit (it is slow to compile).
+#define DOCTEST_CONFIG_IMPLEMENT_WITH_MAIN
+#include <doctest/doctest.h>
