@@ -6,6 +6,7 @@
 //   units.h        trade units (rpm, rpm/V, mN·m, g·cm², mΩ) ↔ SI, in one place
 //   dynamics.h     the ODE, templated for automatic differentiation
 //   closed_form.h  steady state, time constants, coast-down, stall
+//   characteristics.h  curves, max power/efficiency, and their uncertainty
 //   commutator.h   brush-to-brush resistance vs rotor angle, ripple count
 //   copper.h       IEC 60028 copper constants and temperature correction
 //   sample.h       one timestamped instrument reading
@@ -14,6 +15,7 @@
 // Thread-safety: everything is safe to call concurrently except a shared BenchSimulator.
 #pragma once
 
+#include "model/characteristics.h"
 #include "model/closed_form.h"
 #include "model/commutator.h"
 #include "model/copper.h"

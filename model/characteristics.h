@@ -1,0 +1,109 @@
+// rotorbench model: what a parameter set means at a supply voltage — no-load point,
+// stall, torque–speed–current–power–efficiency curves, the maximum-power and
+// maximum-efficiency points — and their uncertainty from the fit's covariance.
+//
+// Steady state with L irrelevant: V − Vb = R·i + Ke·ω and Kt·i = T + Tc + b·ω, where T is
+// the output (load) torque. Uncertainty is propagated by the delta method: a central-
+// difference gradient of each figure with respect to the seven parameters, u² = gᵀ·C·g
+// (docs/design.md §uncertainty). SI units. Pure functions; thread-safe.
+#pragma once
+
+#include <Eigen/Core>
+#include <vector>
+
+#include "model/params.h"
+
+namespace rb::model {
+
+using ParamCovariance = Eigen::Matrix<double, kNumParams, kNumParams>;
+
+/// A parameter set with its covariance (rows/columns in ParamIndex order, SI units;
+/// zero rows for parameters that were fixed rather than estimated).
+struct MotorEstimate {
+  MotorParams value;
+  ParamCovariance cov = ParamCovariance::Zero();
+};
+
+/// One steady operating point.
+struct OperatingPoint {
+  double torque = 0;      ///< output torque at the shaft [N·m]
+  double speed = 0;       ///< [rad/s]
+  double current = 0;     ///< [A]
+  double power_out = 0;   ///< T·ω [W]
+  double power_in = 0;    ///< V·i [W]
+  double efficiency = 0;  ///< power_out / power_in (0 at no load and at stall)
+};
+
+/// The operating point delivering output torque T at supply voltage v; speed clamps at 0
+/// (stall) when T exceeds what the motor can give.
+OperatingPoint PointAtTorque(const MotorParams& p, double v, double torque);
+
+/// The figures a user asks for at one supply voltage.
+struct Characteristics {
+  double voltage = 0;          ///< [V]
+  double no_load_speed = 0;    ///< [rad/s]
+  double no_load_current = 0;  ///< [A]
+  double stall_current = 0;    ///< [A]
+  double stall_torque = 0;     ///< [N·m] (output torque as speed → 0)
+  OperatingPoint max_power;       ///< the point of maximum output power
+  OperatingPoint max_efficiency;  ///< the point of maximum efficiency
+  double motor_constant = 0;   ///< Km = Kt/√R [N·m/√W]
+  double mech_time_constant = 0;  ///< τm [s]
+};
+
+/// Field order of Characteristics for uncertainty propagation and tables.
+enum CharacteristicIndex : int {
+  kNoLoadSpeed = 0, kNoLoadCurrent, kStallCurrent, kStallTorque,
+  kMaxPower, kMaxPowerSpeed, kMaxPowerTorque, kMaxPowerCurrent,
+  kMaxEfficiency, kMaxEffSpeed, kMaxEffTorque, kMaxEffCurrent,
+  kMotorConstant, kMechTimeConstant, kNumCharacteristics
+};
+
+Characteristics ComputeCharacteristics(const MotorParams& p, double v);
+
+/// The characteristics as a vector in CharacteristicIndex order.
+Eigen::Matrix<double, kNumCharacteristics, 1> CharacteristicsVector(const Characteristics& c);
+
+/// A value with its standard uncertainty (1σ).
+struct Uncertain {
+  double value = 0;
+  double u = 0;
+};
+
+/// Characteristics with standard uncertainties, by the delta method.
+struct CharacteristicsU {
+  Characteristics nominal;
+  Eigen::Matrix<double, kNumCharacteristics, 1> u =
+      Eigen::Matrix<double, kNumCharacteristics, 1>::Zero();
+  Uncertain Get(CharacteristicIndex i) const;
+};
+
+CharacteristicsU ComputeCharacteristicsU(const MotorEstimate& e, double v);
+
+/// Generic delta method: standard uncertainty of f(params) given the covariance, with a
+/// central-difference gradient (relative step 1e-6 of each parameter's magnitude).
+template <typename F>
+double DeltaMethodU(const MotorEstimate& e, F&& f);
+
+/// `n` points from no load to stall, evenly spaced in output torque.
+std::vector<OperatingPoint> TorqueSpeedCurve(const MotorParams& p, double v, int n = 101);
+
+// ---- implementation of the template
+double ParamStep(const MotorParams& p, int index);
+
+template <typename F>
+double DeltaMethodU(const MotorEstimate& e, F&& f) {
+  Eigen::Matrix<double, kNumParams, 1> g = Eigen::Matrix<double, kNumParams, 1>::Zero();
+  for (int j = 0; j < kNumParams; ++j) {
+    if (e.cov(j, j) <= 0) continue;
+    const double h = ParamStep(e.value, j);
+    MotorParams up = e.value, dn = e.value;
+    Set(&up, j, Get(e.value, j) + h);
+    Set(&dn, j, Get(e.value, j) - h);
+    g(j) = (f(up) - f(dn)) / (2 * h);
+  }
+  const double var = g.dot(e.cov * g);
+  return var > 0 ? std::sqrt(var) : 0.0;
+}
+
+}  // namespace rb::model
