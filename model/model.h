@@ -9,12 +9,14 @@
 //   characteristics.h  curves, max power/efficiency, and their uncertainty
 //   commutator.h   brush-to-brush resistance vs rotor angle, ripple count
 //   copper.h       IEC 60028 copper constants and temperature correction
+//   calibration.h  gain/offset of instrument channels, applied to raw readings
 //   sample.h       one timestamped instrument reading
 //   simulate.h     a bench simulator with realistic instruments
 //   demo.h         the invented demo motor and bench
 // Thread-safety: everything is safe to call concurrently except a shared BenchSimulator.
 #pragma once
 
+#include "model/calibration.h"
 #include "model/characteristics.h"
 #include "model/closed_form.h"
 #include "model/commutator.h"
