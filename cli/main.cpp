@@ -43,6 +43,8 @@ int Main(int argc, char** argv) {
   AddMotorCommands(app, ctx);
   AddRunCommands(app, ctx);
   AddSimulateCommand(app, ctx);
+  AddRigSimCommand(app, ctx);
+  AddRecordCommands(app, ctx);
 
   try {
     app.parse(argc, argv);
