@@ -6,7 +6,9 @@
 #include <iostream>
 #include <memory>
 
+#include "acquire/calibrate.h"
 #include "acquire/recorder.h"
+#include "cli/output.h"
 #include "cli/context.h"
 #include "cli/signals.h"
 
@@ -111,6 +113,69 @@ void AddRecordCommands(CLI::App& app, Context& ctx) {
       return Status::Ok();
     };
   });
+
+  // ---- calibrate zero | shunt | tach
+  CLI::App* cal = app.add_subcommand(
+      "calibrate", "Bench checks that calibrate the rig's channels, stored for every later run");
+  cal->require_subcommand(1);
+  struct CalOpts {
+    std::string port;
+    acquire::CalibrateOptions c;
+    bool yes = false;
+  };
+  auto add_check = [&ctx, cal](const std::string& name, const std::string& help) {
+    auto co = std::make_shared<CalOpts>();
+    co->c.check = name;
+    CLI::App* sc = cal->add_subcommand(name, help);
+    sc->add_option("--port", co->port, "Serial device of the rig")->required();
+    sc->add_option("--seconds", co->c.seconds, "Averaging time per point [s] (default 1)");
+    sc->add_option("--notes", co->c.notes, "Free text stored with the record");
+    sc->add_flag("--yes,-y", co->yes, "No prompts (the setup is in place)");
+    if (name == "shunt") {
+      sc->add_option("--ohms", co->c.ohms, "The precision resistor in place of the motor [ohm]")->required();
+      sc->add_option("--tolerance", co->c.ohms_tolerance, "Its tolerance, relative (default 0.001 = 0.1 %)");
+      sc->add_option("--levels", co->c.levels, "Output fractions (default 0.3,0.6,1)")->delimiter(',');
+      sc->add_option("--current-limit", co->c.current_limit_A, "Host current limit [A] (default 4)");
+    }
+    if (name == "tach") {
+      sc->add_option("--reference-rpm", co->c.reference_rpm, "Speed shown by the reference instrument [rpm]")
+          ->required();
+      sc->add_option("--reference-u", co->c.reference_u, "Its standard uncertainty, relative (default 0.001)");
+      sc->add_option("--level", co->c.level, "Output fraction while measuring (default 1)");
+      sc->add_option("--current-limit", co->c.current_limit_A, "Host current limit [A] (default 4)");
+    }
+    sc->callback([&ctx, co] {
+      ctx.action = [&ctx, co]() -> Status {
+        RB_RETURN_IF_ERROR(acquire::ValidateCalibrateOptions(co->c));
+        Result<storage::Database> db = ctx.OpenDb(true);
+        if (!db.ok()) return db.status();
+        Result<std::unique_ptr<acquire::ByteSource>> port = acquire::OpenPort(co->port);
+        if (!port.ok()) return port.status().WithPrefix("--port");
+        const std::string setup =
+            co->c.check == "zero"    ? "Leave the motor (or nothing) connected; the output stays off."
+            : co->c.check == "shunt" ? "Connect the precision resistor in place of the motor."
+                                     : "Mount the motor and aim the reference tachometer at the shaft.";
+        if (co->c.check != "zero") PrintDriveCautions(co->c.current_limit_A, 0);
+        std::fprintf(stderr, "%s\n", setup.c_str());
+        if (!co->yes && !AskYesNo("Ready?")) return Status::Interrupted("not started");
+        acquire::CalibrateCallbacks cb;
+        cb.stop = InstallStopHandlers();
+        cb.say = [](const std::string& line) { std::fprintf(stderr, "%s\n", line.c_str()); };
+        Result<acquire::CalibrateSummary> sum = acquire::Calibrate(*db, **port, co->c, cb);
+        if (!sum.ok()) return sum.status();
+        for (const auto& r : sum->stored) {
+          fmt::print("stored calibration {}: {} {} gain {} ± {:.3g} %, offset {} ± {} ({})\n", r.id,
+                     r.instrument, r.channel, Num(r.gain, 6), r.gain_u * 100, Num(r.offset, 4),
+                     Num(r.offset_u, 2), r.method);
+        }
+        return Status::Ok();
+      };
+    });
+  };
+  add_check("zero", "Current offset with the output off");
+  add_check("shunt", "Current gain and offset with a precision resistor in place of the motor");
+  add_check("tach", "Speed gain against a reference speed (strobe, optical tachometer)");
+
 }
 
 }  // namespace rb::cli
