@@ -45,6 +45,7 @@ int Main(int argc, char** argv) {
   AddSimulateCommand(app, ctx);
   AddRigSimCommand(app, ctx);
   AddRecordCommands(app, ctx);
+  AddDaemonCommands(app, ctx);
 
   try {
     app.parse(argc, argv);
