@@ -141,7 +141,7 @@ void RunCutter::Feed(const model::Sample& s) {
         case model::RunKind::kLocked:
           if (!flowing && last_current_ < o_.current_off_A) {
             if (rest_since_ < 0) rest_since_ = t;
-            if (t - rest_since_ >= 0.05) End("current off", t);
+            if (t - rest_since_ >= 0.02) End("current off", t);
           } else if (turning) {
             Switch(model::RunKind::kSpinUp, t, "the shaft turned", 0);
           }
