@@ -9,7 +9,7 @@
 // Hints compare the measured ratios rR = R/R_plan and rK = Ke/Ke_plan (and the change of
 // b) with the signature of each cause, in log space, with the uncertainties:
 //   turn count off     rR = rK = N_actual/N_plan (same wire and mean turn)
-//   wrong wire         rR = A_plan/A_actual for a neighbouring size, rK = 1
+//   wrong wire         rR = A_plan/A_actual for the next size up or down, rK = 1
 //   one coil open      ring circuit (model/winding_faults.h): 3 coils → rR ≈ 1.59–1.80,
 //                      rK ≈ 0.99–1.00 for brush widths 0–0.3 of a pitch
 //   one coil reversed  3 coils → rR = 1, rK = 1/3, and a large extra drag (circulating
@@ -79,11 +79,13 @@ double Distance2(const Ratios& m, double hr, double hr_u, double hk, double hk_u
   return d2;
 }
 
-/// Neighbouring catalogue sizes of a wire (±2 AWG, or ±2 steps of the metric series).
+/// Neighbouring catalogue sizes of a wire: ±1 AWG, or ±1 step of the metric series. A mix-up
+/// by two sizes (26 % in diameter) shows against the old wire by eye; one size (12 %) does
+/// not — our judgement, no source. (Two sizes would also mimic an open coil's R × 1.6.)
 std::vector<model::Wire> Neighbours(const model::Wire& w) {
   std::vector<model::Wire> out;
   if (w.awg >= 0) {
-    for (int d : {-2, -1, 1, 2}) {
+    for (int d : {-1, 1}) {
       Result<model::Wire> n = model::AwgWire(w.awg + d, w.insulation);
       if (n.ok()) out.push_back(*n);
     }
@@ -94,7 +96,7 @@ std::vector<model::Wire> Neighbours(const model::Wire& w) {
   for (size_t i = 0; i < cat.size(); ++i) {
     if (std::fabs(cat[i].d_nom - w.d_nom) < std::fabs(cat[at].d_nom - w.d_nom)) at = i;
   }
-  for (int d : {-2, -1, 1, 2}) {
+  for (int d : {-1, 1}) {
     const long i = static_cast<long>(at) + d;
     if (i >= 0 && i < static_cast<long>(cat.size()) &&
         std::fabs(cat[static_cast<size_t>(i)].d_nom - w.d_nom) > 1e-9) {
