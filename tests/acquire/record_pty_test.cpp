@@ -143,7 +143,7 @@ TEST_CASE("record --plan standard against rig-sim: kinds, sample counts and timi
 TEST_CASE("record survives injected faults and its counters show them") {
   Bench b;
   Child sim(b.Sim({"--friction", "2", "--fault-drop-every", "40", "--fault-corrupt-every", "57",
-                   "--fault-garbage-every", "0.3"}),
+                   "--fault-garbage-every", "0.3", "--fault-stall-at", "1.0", "--fault-stall-for", "0.3"}),
             b.dir.File("sim.log"));
   REQUIRE(WaitForPath(b.link));
   CommandResult r = b.Record({"--plan", "quick"});
@@ -274,4 +274,22 @@ TEST_CASE("record across a wrap of the rig's 32-bit µs clock: no gap, no jump")
     CHECK(not_500 == 0);
   }
   CHECK(crossed);  // the unwrapped times passed 2^32 inside a run
+}
+
+TEST_CASE("the rig vanishes during record: a one-line error, the open run kept as interrupted") {
+  Bench b;
+  // Unplugged for good 1.2 s after start: during the spin-up or the coast-down.
+  Child sim(b.Sim({"--fault-vanish-at", "1.2", "--fault-vanish-for", "0"}), b.dir.File("sim.log"));
+  REQUIRE(WaitForPath(b.link));
+  CommandResult r = b.Record({"--plan", "quick"});
+  INFO(r.out << r.err);
+  CHECK(r.exit_code == 1);
+  CHECK(r.err.find("rotorbench: error: ") != std::string::npos);
+  CHECK(r.err.find("vanished") != std::string::npos);
+  auto db = storage::Database::Open(b.db);
+  auto runs = db->ListRuns();
+  REQUIRE(!runs->empty());
+  const storage::Run& last = runs->back();
+  CHECK(last.status == storage::RunStatus::kInterrupted);
+  CHECK(last.sample_count > 100);  // what arrived before the unplug is kept
 }
