@@ -30,5 +30,8 @@ struct Context {
 void AddMotorCommands(CLI::App& app, Context& ctx);
 void AddRunCommands(CLI::App& app, Context& ctx);     // import, run list/show, export
 void AddSimulateCommand(CLI::App& app, Context& ctx);
+void AddRigSimCommand(CLI::App& app, Context& ctx);     // rig-sim
+void AddRecordCommands(CLI::App& app, Context& ctx);    // record, calibrate
+void AddDaemonCommands(CLI::App& app, Context& ctx);    // daemon, bench, status
 
 }  // namespace rb::cli
