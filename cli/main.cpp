@@ -48,6 +48,7 @@ int Main(int argc, char** argv) {
   AddRigSimCommand(app, ctx);
   AddRecordCommands(app, ctx);
   AddDaemonCommands(app, ctx);
+  AddRewindCommands(app, ctx);
 
   try {
     app.parse(argc, argv);
