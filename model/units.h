@@ -44,7 +44,11 @@ constexpr double HenryToMilliHenry(double l) { return l * 1e3; }
 constexpr double CelsiusToKelvin(double c) { return c + 273.15; }
 
 /// Physical quantities that a column or option may carry.
-enum class Quantity { kTime, kSpeed, kCurrent, kVoltage, kResistance, kTorque, kInertia };
+/// kSpeedConstant is Kv (SI rad/(V·s), the reciprocal of Ke); kTorqueConstant is Kt (SI N·m/A).
+enum class Quantity {
+  kTime, kSpeed, kCurrent, kVoltage, kResistance, kTorque, kInertia,
+  kSpeedConstant, kTorqueConstant
+};
 
 const char* QuantityName(Quantity q);
 
