@@ -49,6 +49,7 @@ int Main(int argc, char** argv) {
   AddRecordCommands(app, ctx);
   AddDaemonCommands(app, ctx);
   AddRewindCommands(app, ctx);
+  AddQaCommands(app, ctx);
 
   try {
     app.parse(argc, argv);
