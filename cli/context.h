@@ -33,5 +33,7 @@ void AddSimulateCommand(CLI::App& app, Context& ctx);
 void AddRigSimCommand(CLI::App& app, Context& ctx);     // rig-sim
 void AddRecordCommands(CLI::App& app, Context& ctx);    // record, calibrate
 void AddDaemonCommands(CLI::App& app, Context& ctx);    // daemon, bench, status
+void AddRewindCommands(CLI::App& app, Context& ctx);  // rewind plan/suggest/verify/show/wires
+void AddQaCommands(CLI::App& app, Context& ctx);  // qa spec | check | batch | plan
 
 }  // namespace rb::cli

@@ -48,6 +48,8 @@ int Main(int argc, char** argv) {
   AddRigSimCommand(app, ctx);
   AddRecordCommands(app, ctx);
   AddDaemonCommands(app, ctx);
+  AddRewindCommands(app, ctx);
+  AddQaCommands(app, ctx);
 
   try {
     app.parse(argc, argv);
