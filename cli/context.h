@@ -30,5 +30,6 @@ struct Context {
 void AddMotorCommands(CLI::App& app, Context& ctx);
 void AddRunCommands(CLI::App& app, Context& ctx);     // import, run list/show, export
 void AddSimulateCommand(CLI::App& app, Context& ctx);
+void AddReportCommands(CLI::App& app, Context& ctx);  // report, curves
 
 }  // namespace rb::cli

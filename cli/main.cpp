@@ -43,6 +43,7 @@ int Main(int argc, char** argv) {
   AddMotorCommands(app, ctx);
   AddRunCommands(app, ctx);
   AddSimulateCommand(app, ctx);
+  AddReportCommands(app, ctx);
 
   try {
     app.parse(argc, argv);
