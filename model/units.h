@@ -57,7 +57,11 @@ constexpr double OhmPerMetreToOhmPer1000Ft(double r) { return r * 1000.0 * kMetr
 constexpr double OhmPer1000FtToOhmPerMetre(double r) { return r / (1000.0 * kMetrePerFoot); }
 
 /// Physical quantities that a column or option may carry.
-enum class Quantity { kTime, kSpeed, kCurrent, kVoltage, kResistance, kTorque, kInertia };
+/// kSpeedConstant is Kv (SI rad/(V·s), the reciprocal of Ke); kTorqueConstant is Kt (SI N·m/A).
+enum class Quantity {
+  kTime, kSpeed, kCurrent, kVoltage, kResistance, kTorque, kInertia,
+  kSpeedConstant, kTorqueConstant
+};
 
 const char* QuantityName(Quantity q);
 
