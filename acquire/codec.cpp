@@ -21,6 +21,21 @@ constexpr std::array<std::uint16_t, 256> MakeCrcTable() {
 }
 constexpr std::array<std::uint16_t, 256> kCrcTable = MakeCrcTable();
 
+/// Slicing-by-8 tables: kSlice[k][x] is the CRC contribution of byte x followed by k zero
+/// bytes, so eight bytes fold in with eight independent look-ups.
+constexpr std::array<std::array<std::uint16_t, 256>, 8> MakeSliceTables() {
+  std::array<std::array<std::uint16_t, 256>, 8> t{};
+  t[0] = MakeCrcTable();
+  for (int k = 1; k < 8; ++k) {
+    for (unsigned x = 0; x < 256; ++x) {
+      const std::uint16_t p = t[k - 1][x];
+      t[k][x] = static_cast<std::uint16_t>((p << 8) ^ t[0][p >> 8]);
+    }
+  }
+  return t;
+}
+constexpr std::array<std::array<std::uint16_t, 256>, 8> kSlice = MakeSliceTables();
+
 // ---- little-endian writer / reader
 struct Writer {
   std::vector<std::uint8_t>* b;
@@ -190,7 +205,14 @@ bool KnownType(std::uint8_t t) {
 }  // namespace
 
 std::uint16_t Crc16(std::span<const std::uint8_t> bytes, std::uint16_t crc) {
-  for (std::uint8_t b : bytes) {
+  const std::uint8_t* p = bytes.data();
+  std::size_t n = bytes.size();
+  for (; n >= 8; n -= 8, p += 8) {
+    crc = static_cast<std::uint16_t>(
+        kSlice[7][((crc >> 8) ^ p[0]) & 0xFF] ^ kSlice[6][(crc ^ p[1]) & 0xFF] ^ kSlice[5][p[2]] ^
+        kSlice[4][p[3]] ^ kSlice[3][p[4]] ^ kSlice[2][p[5]] ^ kSlice[1][p[6]] ^ kSlice[0][p[7]]);
+  }
+  for (std::uint8_t b : std::span<const std::uint8_t>(p, n)) {
     crc = static_cast<std::uint16_t>((crc << 8) ^ kCrcTable[((crc >> 8) ^ b) & 0xFF]);
   }
   return crc;
@@ -229,7 +251,11 @@ long CobsDecode(std::span<const std::uint8_t> in, std::span<std::uint8_t> out) {
     if (code == 0) return -1;
     const std::size_t run = code - 1u;
     if (i + run > n || o + run > out.size()) return -1;
-    std::memcpy(out.data() + o, in.data() + i, run);  // no zero can be inside: the caller split
+    if (run < 16) {  // most blocks are short (zeros are common in binary payloads)
+      for (std::size_t k = 0; k < run; ++k) out[o + k] = in[i + k];
+    } else {
+      std::memcpy(out.data() + o, in.data() + i, run);  // no zero inside: the caller split
+    }
     i += run;
     o += run;
     if (code != 0xFF && i < n) {
