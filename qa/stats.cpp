@@ -114,6 +114,8 @@ Describe DescribeSample(std::span<const double> x) {
     double ss = 0;
     for (double v : x) ss += (v - d.mean) * (v - d.mean);
     d.sd = std::sqrt(ss / (d.n - 1));
+    // Equal values leave rounding dust (~1e-17 relative) in the mean: that is no spread.
+    if (d.sd <= 1e-12 * std::fabs(d.mean)) d.sd = 0;
   }
   return d;
 }

@@ -6,6 +6,7 @@
 
 #include <cmath>
 #include <numbers>
+#include <random>
 
 #include "model/params.h"
 #include "tests/testutil.h"
@@ -161,4 +162,23 @@ TEST_CASE("a motor against the demo spec: pass, fail, and inconclusive from the 
   CheckOptions simple;
   simple.rule = DecisionRule::kSimple;
   CHECK(CheckFit(edge, *spec, simple).Find(SpecQuantity::kKv, 0)->verdict == Verdict::kPass);
+}
+
+TEST_CASE("guard band: a motor truly at the limit passes with probability Φ(−k) (simulated)") {
+  // With y ~ N(true, u²) and U = k·u, a true value exactly at USL passes only when
+  // y + U ≤ USL, i.e. when the error is ≤ −k·u: probability Φ(−k) = 0.02275 for k = 2
+  // (normal distribution; JCGM 106 calls this the specific consumer's risk). The simple
+  // rule passes such a motor half the time. 40 000 draws: binomial sd ≈ 0.00075.
+  std::mt19937_64 rng(20261201);
+  std::normal_distribution<double> noise(0.0, 1.0);
+  const double usl = 20.0, u = 0.25;
+  int pass_gb = 0, pass_simple = 0;
+  const int draws = 40000;
+  for (int i = 0; i < draws; ++i) {
+    const double y = usl + u * noise(rng);
+    pass_gb += Decide(y, 2 * u, 10.0, usl, DecisionRule::kGuardBand).verdict == Verdict::kPass;
+    pass_simple += Decide(y, 2 * u, 10.0, usl, DecisionRule::kSimple).verdict == Verdict::kPass;
+  }
+  CHECK(std::fabs(pass_gb / double(draws) - 0.02275) < 4 * 0.00075);
+  CHECK(std::fabs(pass_simple / double(draws) - 0.5) < 4 * 0.0025);
 }
