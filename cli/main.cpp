@@ -6,6 +6,7 @@
 
 #include "base/version.h"
 #include "cli/context.h"
+#include "fit/fit.h"
 
 namespace rb::cli {
 
@@ -24,6 +25,7 @@ int ExitCodeFor(const Status& s) {
 }
 
 int Main(int argc, char** argv) {
+  fit::InitLogging(argc > 0 ? argv[0] : "rotorbench");  // once, before any solver runs
   Context ctx;
   if (const char* env = std::getenv("ROTORBENCH_DB"); env && *env) ctx.db_path = env;
 
@@ -43,6 +45,11 @@ int Main(int argc, char** argv) {
   AddMotorCommands(app, ctx);
   AddRunCommands(app, ctx);
   AddSimulateCommand(app, ctx);
+  AddRigSimCommand(app, ctx);
+  AddRecordCommands(app, ctx);
+  AddDaemonCommands(app, ctx);
+  AddRewindCommands(app, ctx);
+  AddQaCommands(app, ctx);
   AddReportCommands(app, ctx);
 
   try {

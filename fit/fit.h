@@ -151,6 +151,10 @@ Result<std::int64_t> StoreFit(storage::Database& db, const FitSummary& s);
 /// Loads a stored fit.
 Result<FitSummary> LoadFit(storage::Database& db, std::int64_t fit_id);
 
+/// Sets up the solver library's logging once per process: messages to stderr only (no log
+/// files), errors only. Call early in main(); safe to call again.
+void InitLogging(const char* argv0);
+
 /// The fitted model's trajectories at a run's own sample times, for plots and residual
 /// strips. NaN where the model does not predict a channel.
 struct RunPrediction {
