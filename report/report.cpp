@@ -167,17 +167,26 @@ std::string MeasuredSection(const ReportInput& in) {
     }
     h += "</p>";
   }
-  HtmlTable t({"run", "kind", "status", "started (UTC)", "duration [s]", "samples", "supply [V]",
-               "ambient [°C]", "source", "in fit"},
-              {0, 4, 5, 6, 7});
+  // The source column only when the runs came from more than one place (else it is above).
+  const bool one_source = sources.size() == 1;
+  std::vector<std::string> head = {"run", "kind", "status", "started (UTC)", "duration [s]",
+                                   "samples", "supply [V]", "ambient [°C]"};
+  if (!one_source) head.push_back("source");
+  head.push_back("in fit");
+  HtmlTable t(head, {0, 4, 5, 6, 7});
   for (const ReportRun& r : in.runs) {
     const auto& rec = r.record;
-    t.Row({std::to_string(rec.id), E(model::RunKindName(rec.kind)),
-           E(storage::RunStatusName(rec.status)), E(rec.started_utc.substr(0, 19)),
-           FormatValue(rec.duration_s, 3), std::to_string(rec.sample_count),
-           rec.nominal_voltage ? FormatSetting(*rec.nominal_voltage) : "–",
-           rec.ambient_C ? FormatValue(*rec.ambient_C, 3) : "–", E(rec.source),
-           r.in_primary_fit ? "yes" : "no"});
+    std::string started = rec.started_utc.substr(0, 19);
+    if (started.size() > 10 && started[10] == 'T') started[10] = ' ';
+    std::vector<std::string> row = {std::to_string(rec.id), E(model::RunKindName(rec.kind)),
+                                    E(storage::RunStatusName(rec.status)), E(started),
+                                    FormatValue(rec.duration_s, 3),
+                                    std::to_string(rec.sample_count),
+                                    rec.nominal_voltage ? FormatSetting(*rec.nominal_voltage) : "–",
+                                    rec.ambient_C ? FormatValue(*rec.ambient_C, 3) : "–"};
+    if (!one_source) row.push_back(E(rec.source));
+    row.push_back(r.in_primary_fit ? "yes" : "no");
+    t.Row(row);
   }
   return h + t.Render() + "</section>";
 }
