@@ -94,6 +94,13 @@ TEST_CASE(
   // The strip marks ±2σ of the noise the fit reported for the channel (0.004 A).
   REQUIRE(fig.panels[3].lines.size() == 2);
   CHECK(fig.panels[3].lines[0].at == doctest::Approx(0.008));
+  // The switching event is marked where it happened, on the measured panels only.
+  REQUIRE(fig.panels[0].lines.size() == 1);
+  CHECK(fig.panels[0].lines[0].vertical);
+  CHECK(fig.panels[0].lines[0].at == doctest::Approx(0.05));  // RunScript::pre_s
+  CHECK(fig.panels[0].lines[0].label == "output on");
+  CHECK(fig.panels[2].lines.size() == 1);
+  CHECK(fig.panels[2].lines[0].label.empty());
   // A locked rotor reads zero speed throughout: no speed panel.
   const Figure locked = RunFigure(in.runs[0], nullptr, "run-l");
   for (const Panel& p : locked.panels) CHECK(p.y.title.find("speed") == std::string::npos);
