@@ -228,7 +228,9 @@ std::string ConstantsSection(const ReportFit& f) {
   for (const ParamRow& r : ParamRows()) {
     const fit::ParamResult& p = s.params[static_cast<size_t>(r.index)];
     const Shown v = ToDisplay(r.unit, p.value, ParamU(p));
-    const std::string note = p.fitted ? "" : "held fixed, not estimated";
+    const std::string note = !std::isfinite(p.value) ? "not determined by these runs"
+                             : p.fitted               ? ""
+                                                      : "held fixed, not estimated";
     t.Row({E(r.name), E(r.symbol), FormatWithU(v.value, v.u), E(r.unit.unit),
            FormatRelative(v.value, v.u), note});
   }

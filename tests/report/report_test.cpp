@@ -158,3 +158,22 @@ TEST_CASE(
   in.voltage = 0;
   CHECK_FALSE(BuildReport(in).ok());
 }
+
+TEST_CASE(
+    "a constant the runs could not determine (NaN, as the fitter reports it) is said so "
+    "in words; nothing prints as nan") {
+  ReportInput in = SimulatedReportInput(ShortPlan(), false);
+  fit::FitSummary& s = in.fits[0].summary;
+  s.params[model::kJ].value = NAN;
+  s.params[model::kJ].fitted = false;
+  for (int i = 0; i < model::kNumParams; ++i)
+    s.covariance(model::kJ, i) = s.covariance(i, model::kJ) = NAN;
+  Result<ReportSummary> rep = BuildReport(in);
+  REQUIRE(rep.ok());
+  CHECK(Has(rep->html, "not determined by these runs"));
+  CHECK_FALSE(Has(rep->html, "nan"));
+  CHECK_FALSE(Has(rep->html, "NaN"));
+  // The other figures keep their uncertainty (the stall torque does not depend on J).
+  const model::CharacteristicsU cu = model::ComputeCharacteristicsU(s.Estimate(), in.voltage);
+  CHECK(cu.Get(model::kStallTorque).u > 0);
+}
