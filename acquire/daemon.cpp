@@ -670,6 +670,7 @@ Result<DaemonConfig> LoadDaemonConfig(const std::string& path) {
 Status RunDaemon(const DaemonConfig& config, const std::string& db_path, const volatile std::sig_atomic_t* stop,
                  const std::function<void(const std::string&)>& say) {
   storage::OpenOptions oo;
+  oo.synchronous_full = true;  // a logger: each commit survives a power cut (docs/design.md)
   Result<storage::Database> db = storage::Database::Open(config.database.empty() ? db_path : config.database, oo);
   if (!db.ok()) return db.status();
   Daemon d(config, *db, say);

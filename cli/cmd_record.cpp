@@ -69,7 +69,9 @@ void AddRecordCommands(CLI::App& app, Context& ctx) {
   r->callback([&ctx, o] {
     ctx.action = [&ctx, o]() -> Status {
       RB_RETURN_IF_ERROR(acquire::ValidateRecordOptions(o->rec));
-      Result<storage::Database> db = ctx.OpenDb(true);
+      storage::OpenOptions oo;
+      oo.synchronous_full = true;  // a logger: each commit survives a power cut
+      Result<storage::Database> db = storage::Database::Open(ctx.db_path, oo);
       if (!db.ok()) return db.status();
       if (Result<storage::Motor> m = db->FindMotor(o->rec.motor_label); !m.ok()) {
         return m.status().WithPrefix("--motor " + o->rec.motor_label);

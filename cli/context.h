@@ -35,5 +35,6 @@ void AddRecordCommands(CLI::App& app, Context& ctx);    // record, calibrate
 void AddDaemonCommands(CLI::App& app, Context& ctx);    // daemon, bench, status
 void AddRewindCommands(CLI::App& app, Context& ctx);  // rewind plan/suggest/verify/show/wires
 void AddQaCommands(CLI::App& app, Context& ctx);  // qa spec | check | batch | plan
+void AddReportCommands(CLI::App& app, Context& ctx);  // report, curves
 
 }  // namespace rb::cli

@@ -50,6 +50,7 @@ int Main(int argc, char** argv) {
   AddDaemonCommands(app, ctx);
   AddRewindCommands(app, ctx);
   AddQaCommands(app, ctx);
+  AddReportCommands(app, ctx);
 
   try {
     app.parse(argc, argv);

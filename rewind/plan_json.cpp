@@ -307,8 +307,8 @@ PlanCurves CurvesForReport(const Plan& plan, int n) {
   c.voltage = plan.prediction.options.voltage;
   c.baseline = plan.prediction.baseline.estimate;
   c.predicted = plan.prediction.predicted;
-  c.baseline_curve = model::TorqueSpeedCurve(c.baseline.value, c.voltage, n);
-  c.predicted_curve = model::TorqueSpeedCurve(c.predicted.value, c.voltage, n);
+  c.baseline_curves = model::CharacteristicCurvesU(c.baseline, c.voltage, n);
+  c.predicted_curves = model::CharacteristicCurvesU(c.predicted, c.voltage, n);
   return c;
 }
 

@@ -225,12 +225,14 @@ Result<std::int64_t> StorePlan(storage::Database& db, const Plan& plan,
                                std::optional<std::int64_t> motor_id);
 Result<Plan> LoadPlan(storage::Database& db, std::int64_t plan_id);
 
-/// What the report overlays: the baseline and predicted parameter sets and their
-/// torque–speed curves at the plan's voltage (n points from no load to stall).
+/// What the report overlays on the rewound motor's measured curves: the baseline and
+/// predicted parameter sets and their characteristic curves at the plan's voltage, each
+/// point with its delta-method band (model::CharacteristicCurvesU, n points from no load
+/// to stall).
 struct PlanCurves {
   double voltage = 0;
   model::MotorEstimate baseline, predicted;
-  std::vector<model::OperatingPoint> baseline_curve, predicted_curve;
+  model::CurvesU baseline_curves, predicted_curves;
 };
 PlanCurves CurvesForReport(const Plan& plan, int n = 101);
 

@@ -143,7 +143,7 @@ TEST_CASE("record --plan standard against rig-sim: kinds, sample counts and timi
 TEST_CASE("record survives injected faults and its counters show them") {
   Bench b;
   Child sim(b.Sim({"--friction", "2", "--fault-drop-every", "40", "--fault-corrupt-every", "57",
-                   "--fault-garbage-every", "0.3"}),
+                   "--fault-garbage-every", "0.3", "--fault-stall-at", "1.0", "--fault-stall-for", "0.3"}),
             b.dir.File("sim.log"));
   REQUIRE(WaitForPath(b.link));
   CommandResult r = b.Record({"--plan", "quick"});
@@ -248,4 +248,48 @@ TEST_CASE("Ctrl-C during record: output off first, the open run kept as interrup
   auto samples = db->ReadSamples(run.id);
   CHECK(samples->back().t > t_off);
   CHECK(std::fabs(samples->back().current) < 0.05);
+}
+
+TEST_CASE("record across a wrap of the rig's 32-bit µs clock: no gap, no jump") {
+  Bench b;
+  // The device clock starts 1.5 s before it wraps: the wrap falls inside the first run.
+  Child sim(b.Sim({"--friction", "2", "--clock-start-us", std::to_string(4294967295u - 1500000u)}),
+            b.dir.File("sim.log"));
+  REQUIRE(WaitForPath(b.link));
+  CommandResult r = b.Record({"--plan", "quick"});
+  INFO(r.out << r.err);
+  REQUIRE(r.exit_code == 0);
+  CHECK(sim.Stop() == 0);
+  auto db = storage::Database::Open(b.db);
+  auto runs = db->ListRuns();
+  REQUIRE(runs->size() == 2);
+  bool crossed = false;
+  for (const auto& run : *runs) {
+    const std::vector<std::int64_t> t = AdcTimes(*db, run);
+    std::size_t not_500 = 0;
+    for (std::size_t k = 1; k < t.size(); ++k) {
+      not_500 += (t[k] - t[k - 1]) != 500;
+      crossed = crossed || (t[k - 1] < (1LL << 32) && t[k] >= (1LL << 32));
+    }
+    CHECK(not_500 == 0);
+  }
+  CHECK(crossed);  // the unwrapped times passed 2^32 inside a run
+}
+
+TEST_CASE("the rig vanishes during record: a one-line error, the open run kept as interrupted") {
+  Bench b;
+  // Unplugged for good 1.2 s after start: during the spin-up or the coast-down.
+  Child sim(b.Sim({"--fault-vanish-at", "1.2", "--fault-vanish-for", "0"}), b.dir.File("sim.log"));
+  REQUIRE(WaitForPath(b.link));
+  CommandResult r = b.Record({"--plan", "quick"});
+  INFO(r.out << r.err);
+  CHECK(r.exit_code == 1);
+  CHECK(r.err.find("rotorbench: error: ") != std::string::npos);
+  CHECK(r.err.find("vanished") != std::string::npos);
+  auto db = storage::Database::Open(b.db);
+  auto runs = db->ListRuns();
+  REQUIRE(!runs->empty());
+  const storage::Run& last = runs->back();
+  CHECK(last.status == storage::RunStatus::kInterrupted);
+  CHECK(last.sample_count > 100);  // what arrived before the unplug is kept
 }

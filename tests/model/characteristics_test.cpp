@@ -12,10 +12,11 @@
 
 using namespace rb::model;
 
-TEST_CASE("η_max = (1 − √(I0/Is))² at I = √(I0·Is); I0 = 0.1 A, Is = 10 A → 0.81 at 1.0 A "
-          "(textbook relation, domain.md §2.4 check value)") {
+TEST_CASE(
+    "η_max = (1 − √(I0/Is))² at I = √(I0·Is); I0 = 0.1 A, Is = 10 A → 0.81 at 1.0 A "
+    "(textbook relation, domain.md §2.4 check value)") {
   MotorParams p;
-  p.R = 1.2;          // Is = V/R = 10 A at 12 V
+  p.R = 1.2;  // Is = V/R = 10 A at 12 V
   p.Ke = 0.02;
   p.Tc = 0.1 * 0.02;  // I0 = Tc/Kt = 0.1 A
   p.J = 1e-5;
@@ -26,8 +27,9 @@ TEST_CASE("η_max = (1 − √(I0/Is))² at I = √(I0·Is); I0 = 0.1 A, Is = 10
   CHECK(c.max_efficiency.current == doctest::Approx(1.0).epsilon(1e-6));
 }
 
-TEST_CASE("P_max = (V − I0·R)²/(4R): 606.80 W with I0 = 0, 575.95 W with I0 = 1.25 A "
-          "(V = 50 V, R = 1.03 Ω; domain.md §2.4 check values)") {
+TEST_CASE(
+    "P_max = (V − I0·R)²/(4R): 606.80 W with I0 = 0, 575.95 W with I0 = 1.25 A "
+    "(V = 50 V, R = 1.03 Ω; domain.md §2.4 check values)") {
   MotorParams p;
   p.R = 1.03;
   p.Ke = 0.2215;
@@ -41,8 +43,9 @@ TEST_CASE("P_max = (V − I0·R)²/(4R): 606.80 W with I0 = 0, 575.95 W with I0 
   CHECK(c.max_power.current == doctest::Approx(0.5 * (c.stall_current + 1.25)));
 }
 
-TEST_CASE("operating points satisfy both steady-state equations, with viscous friction "
-          "and brush drop") {
+TEST_CASE(
+    "operating points satisfy both steady-state equations, with viscous friction "
+    "and brush drop") {
   const MotorParams p = DemoMotor();
   for (double t : {0.0, 1e-3, 5e-3, 1e-2}) {
     const OperatingPoint op = PointAtTorque(p, 6.0, t);
@@ -59,8 +62,9 @@ TEST_CASE("operating points satisfy both steady-state equations, with viscous fr
   }
 }
 
-TEST_CASE("delta method: 1/Ke has the relative uncertainty of Ke, and stall current V/R "
-          "that of R (first-order propagation, GUM JCGM 100:2008 §5.1.2)") {
+TEST_CASE(
+    "delta method: 1/Ke has the relative uncertainty of Ke, and stall current V/R "
+    "that of R (first-order propagation, GUM JCGM 100:2008 §5.1.2)") {
   MotorEstimate e;
   e.value = DemoMotor();
   e.cov(kKe, kKe) = std::pow(0.01 * e.value.Ke, 2);  // 1 % on Ke
@@ -105,8 +109,9 @@ void CheckToDigits(double x, double stated, double last_digit_unit) {
 
 }  // namespace
 
-TEST_CASE("textbook worked example (domain.md §2.5): EMF constant 0.221510 V·s/rad, Kv 43.110 "
-          "rpm/V, no-load rotational loss 60.8906 W") {
+TEST_CASE(
+    "textbook worked example (domain.md §2.5): EMF constant 0.221510 V·s/rad, Kv 43.110 "
+    "rpm/V, no-load rotational loss 60.8906 W") {
   for (bool squared : {false, true}) {
     const MotorParams p = TextbookMotor(squared);
     const Characteristics c = ComputeCharacteristics(p, 50.0);
@@ -122,8 +127,9 @@ TEST_CASE("textbook worked example (domain.md §2.5): EMF constant 0.221510 V·s
   }
 }
 
-TEST_CASE("textbook worked example (domain.md §2.5): at 1700 r/min from 48 V, Ia = 8.3166 A, "
-          "P_mech = 327.955 W; P_out 288.05 W (loss ∝ ω²) or 278.66 W (loss ∝ ω)") {
+TEST_CASE(
+    "textbook worked example (domain.md §2.5): at 1700 r/min from 48 V, Ia = 8.3166 A, "
+    "P_mech = 327.955 W; P_out 288.05 W (loss ∝ ω²) or 278.66 W (loss ∝ ω)") {
   const double w = rb::units::RpmToRadPerSec(1700.0);
   CheckToDigits(w, 178.0236, 1e-4);
   for (bool squared : {false, true}) {
@@ -147,9 +153,10 @@ TEST_CASE("textbook worked example (domain.md §2.5): at 1700 r/min from 48 V, I
   }
 }
 
-TEST_CASE("η_max = (1 − √(I0/Is))² at I = √(I0·Is) and P_max = (V − I0·R)²/(4R) at "
-          "I = (Is + I0)/2 over a range of motors (textbook relations, domain.md §2.4; "
-          "constant-loss-current model: b = 0, brush drop lumped into the supply)") {
+TEST_CASE(
+    "η_max = (1 − √(I0/Is))² at I = √(I0·Is) and P_max = (V − I0·R)²/(4R) at "
+    "I = (Is + I0)/2 over a range of motors (textbook relations, domain.md §2.4; "
+    "constant-loss-current model: b = 0, brush drop lumped into the supply)") {
   for (double i0_over_is : {1e-4, 1e-3, 0.01, 0.05, 0.2, 0.5}) {
     for (double vb : {0.0, 0.7}) {
       MotorParams p;
@@ -201,8 +208,9 @@ MotorParams LossyMotor() {  // viscous friction and brush drop both matter here
 
 }  // namespace
 
-TEST_CASE("maximum-power and maximum-efficiency points are stationary points of the model's "
-          "P(T) and η(T) by numerical differentiation, with viscous friction and brush drop") {
+TEST_CASE(
+    "maximum-power and maximum-efficiency points are stationary points of the model's "
+    "P(T) and η(T) by numerical differentiation, with viscous friction and brush drop") {
   for (const MotorParams& p : {DemoMotor(), LossyMotor()}) {
     for (double v : {3.0, 6.0, 9.0}) {
       const Characteristics c = ComputeCharacteristics(p, v);
@@ -226,8 +234,9 @@ TEST_CASE("maximum-power and maximum-efficiency points are stationary points of 
   }
 }
 
-TEST_CASE("operating points equal the steady state of the ODE (dynamics.h RK4, L > 0) "
-          "integrated under a constant load torque") {
+TEST_CASE(
+    "operating points equal the steady state of the ODE (dynamics.h RK4, L > 0) "
+    "integrated under a constant load torque") {
   const MotorParams p = LossyMotor();
   const ParamsT<double> pt = ToParamsT(p);
   const Smoothing s;  // default smoothing: exact sign at these speeds and currents
@@ -245,15 +254,16 @@ TEST_CASE("operating points equal the steady state of the ODE (dynamics.h RK4, L
   }
 }
 
-TEST_CASE("delta method against the analytic gradient of the stall torque "
-          "Ts = Kt·(V − Vb)/R − Tc with a full covariance (GUM JCGM 100:2008 eq. 13)") {
+TEST_CASE(
+    "delta method against the analytic gradient of the stall torque "
+    "Ts = Kt·(V − Vb)/R − Tc with a full covariance (GUM JCGM 100:2008 eq. 13)") {
   MotorEstimate e;
   e.value = LossyMotor();
   const double v = 6.0;
   // A covariance with correlations, as a fit gives: C = D·Corr·D.
   Eigen::Matrix<double, kNumParams, 1> sd;
-  sd << 0.02 * e.value.R, 0, 0.01 * e.value.Ke, 0.03 * e.value.J, 0.1 * e.value.Tc,
-      0.2 * e.value.b, 0.05;
+  sd << 0.02 * e.value.R, 0, 0.01 * e.value.Ke, 0.03 * e.value.J, 0.1 * e.value.Tc, 0.2 * e.value.b,
+      0.05;
   ParamCovariance corr = ParamCovariance::Identity();
   corr(kR, kKe) = corr(kKe, kR) = 0.6;
   corr(kR, kVb) = corr(kVb, kR) = -0.5;
@@ -275,8 +285,9 @@ TEST_CASE("delta method against the analytic gradient of the stall torque "
   CHECK(cu.Get(kMotorConstant).u == doctest::Approx(std::sqrt(g.dot(e.cov * g))).epsilon(1e-6));
 }
 
-TEST_CASE("delta method agrees with Monte Carlo propagation (GUM Supplement 1, JCGM 101:2008) "
-          "for every figure and for a curve band, at small uncertainties") {
+TEST_CASE(
+    "delta method agrees with Monte Carlo propagation (GUM Supplement 1, JCGM 101:2008) "
+    "for every figure and for a curve band, at small uncertainties") {
   MotorEstimate e;
   e.value = LossyMotor();
   const double v = 6.0;
@@ -329,10 +340,11 @@ TEST_CASE("delta method agrees with Monte Carlo propagation (GUM Supplement 1, J
         doctest::Approx(std::sqrt(band_sum2 / n - mean * mean)).epsilon(0.04));
 }
 
-TEST_CASE("curves with bands: values are the torque–speed curve; at no load the band equals "
-          "the no-load figures' uncertainty; along the curve, the current band is that of "
-          "i(T) = (Ke·(T + Tc) + b·(V − Vb))/(Kt·Ke + b·R), solved by hand from the two "
-          "steady-state equations") {
+TEST_CASE(
+    "curves with bands: values are the torque–speed curve; at no load the band equals "
+    "the no-load figures' uncertainty; along the curve, the current band is that of "
+    "i(T) = (Ke·(T + Tc) + b·(V − Vb))/(Kt·Ke + b·R), solved by hand from the two "
+    "steady-state equations") {
   MotorEstimate e;
   e.value = DemoMotor();
   e.cov(kR, kR) = std::pow(0.02 * e.value.R, 2);

@@ -113,8 +113,10 @@ TEST_CASE("plan JSON: the fitter's parameter names, SI values, and a faithful ro
   REQUIRE(back.loaded);
   CHECK(back.loaded->predicted.speed == doctest::Approx(plan.loaded->predicted.speed));
   const PlanCurves c = CurvesForReport(back, 11);
-  CHECK(c.predicted_curve.size() == 11);
-  CHECK(c.predicted_curve.front().speed ==
+  REQUIRE(c.predicted_curves.value.size() == 11);
+  CHECK(c.predicted_curves.value.front().speed ==
         doctest::Approx(back.prediction.predicted_char.nominal.no_load_speed));
+  CHECK(c.predicted_curves.u.front().speed ==
+        doctest::Approx(back.prediction.predicted_char.u(model::kNoLoadSpeed)).epsilon(1e-3));
   CHECK_FALSE(PlanFromJson(nlohmann::json{{"format", "something else"}}).ok());
 }
