@@ -11,6 +11,7 @@
 #include <optional>
 #include <sstream>
 
+#include "base/text.h"
 #include "model/units.h"
 
 namespace rb::acquire {
@@ -132,7 +133,7 @@ Result<CsvImportSummary> ParseSamplesCsv(std::string_view text, std::string_view
         if (!header[a].empty() && Lower(header[a]) == Lower(header[b])) {
           return Status::InvalidArgument(fmt::format(
               "{}:{}: column '{}' appears twice; expected unique column names", file, line_no,
-              header[a]));
+              Printable(header[a])));
         }
       }
     }
@@ -144,6 +145,7 @@ Result<CsvImportSummary> ParseSamplesCsv(std::string_view text, std::string_view
     };
     std::string header_list;
     for (const std::string& h : header) header_list += (header_list.empty() ? "" : ", ") + h;
+    header_list = Printable(header_list, 200);
     for (size_t c = 0; c < channels.size(); ++c) {
       const Channel& ch = channels[c];
       Resolved& r = cols[c];
@@ -152,7 +154,7 @@ Result<CsvImportSummary> ParseSamplesCsv(std::string_view text, std::string_view
         if (r.index < 0) {
           return Status::InvalidArgument(fmt::format(
               "{}:{}: no column '{}' (given by {}-col); the header has: {}", file, line_no,
-              ch.spec->header, ch.option, header_list));
+              Printable(ch.spec->header), ch.option, header_list));
         }
         r.unit = ch.spec->unit.empty() ? units::SiUnitName(ch.q) : ch.spec->unit;
       } else {
@@ -197,7 +199,7 @@ Result<CsvImportSummary> ParseSamplesCsv(std::string_view text, std::string_view
         if (c == 0) {
           return Status::InvalidArgument(fmt::format(
               "{}:{}: column '{}' is empty; expected a time on every row", file, line_no,
-              cols[c].header));
+              Printable(cols[c].header)));
         }
         continue;
       }
@@ -205,19 +207,19 @@ Result<CsvImportSummary> ParseSamplesCsv(std::string_view text, std::string_view
       if (!x) {
         return Status::InvalidArgument(fmt::format(
             "{}:{}: column '{}': '{}' is not a number; expected a decimal number{}", file,
-            line_no, cols[c].header, cell, c == 0 ? "" : " or an empty cell"));
+            line_no, Printable(cols[c].header), Printable(cell), c == 0 ? "" : " or an empty cell"));
       }
       if (!std::isfinite(*x)) {
         return Status::InvalidArgument(fmt::format(
             "{}:{}: column '{}': '{}' is not a finite number; expected a decimal number{}", file,
-            line_no, cols[c].header, cell, c == 0 ? "" : " or an empty cell"));
+            line_no, Printable(cols[c].header), Printable(cell), c == 0 ? "" : " or an empty cell"));
       }
       v[c] = *x * cols[c].scale;
     }
     if (!(v[0] > prev_t)) {
       return Status::InvalidArgument(fmt::format(
           "{}:{}: time {} {} is not after {} {} on line {}; expected strictly increasing time",
-          file, line_no, Trim(fields[static_cast<size_t>(cols[0].index)]), cols[0].unit,
+          file, line_no, Printable(Trim(fields[static_cast<size_t>(cols[0].index)])), cols[0].unit,
           prev_t / cols[0].scale, cols[0].unit, prev_line));
     }
     prev_t = v[0];

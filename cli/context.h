@@ -30,5 +30,11 @@ struct Context {
 void AddMotorCommands(CLI::App& app, Context& ctx);
 void AddRunCommands(CLI::App& app, Context& ctx);     // import, run list/show, export
 void AddSimulateCommand(CLI::App& app, Context& ctx);
+void AddRigSimCommand(CLI::App& app, Context& ctx);     // rig-sim
+void AddRecordCommands(CLI::App& app, Context& ctx);    // record, calibrate
+void AddDaemonCommands(CLI::App& app, Context& ctx);    // daemon, bench, status
+void AddRewindCommands(CLI::App& app, Context& ctx);  // rewind plan/suggest/verify/show/wires
+void AddQaCommands(CLI::App& app, Context& ctx);  // qa spec | check | batch | plan
+void AddReportCommands(CLI::App& app, Context& ctx);  // report, curves
 
 }  // namespace rb::cli

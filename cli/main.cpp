@@ -45,6 +45,12 @@ int Main(int argc, char** argv) {
   AddMotorCommands(app, ctx);
   AddRunCommands(app, ctx);
   AddSimulateCommand(app, ctx);
+  AddRigSimCommand(app, ctx);
+  AddRecordCommands(app, ctx);
+  AddDaemonCommands(app, ctx);
+  AddRewindCommands(app, ctx);
+  AddQaCommands(app, ctx);
+  AddReportCommands(app, ctx);
 
   try {
     app.parse(argc, argv);

@@ -15,6 +15,24 @@ void SpeedLine(const MotorParams& p, double v, double* w0, double* slope) {
   *slope = (p.R / p.Kt()) / denom;
 }
 
+/// η(T) = T·(ω0 − s·T) / (v·(α·T + I0)) with α = (1 − b·s)/Kt and I0 = (Tc + b·ω0)/Kt.
+/// dη/dT = 0 ⇔ s·α·T² + 2·s·I0·T − ω0·I0 = 0, whose positive root, written without
+/// cancellation, is T* = Ts/(1 + √(1 + α·Ts/I0)) with Ts = ω0/s the stall torque. With
+/// I0 = Tc = 0 it reduces to (1 − √(I0/Is))² at I = √(I0·Is) (domain.md §2.4).
+OperatingPoint MaxEfficiencyPoint(const MotorParams& p, double v, double w0, double s,
+                                  double stall_torque) {
+  const double i0 = (p.Tc + p.b * w0) / p.Kt();
+  const double alpha = (1 - p.b * s) / p.Kt();
+  if (stall_torque <= 0) return PointAtTorque(p, v, 0.0);  // does not run: η = 0
+  if (i0 <= 0) {
+    // No running losses: η rises towards (ω0/α)/v as T → 0+; report that limit at no load.
+    OperatingPoint op = PointAtTorque(p, v, 0.0);
+    op.efficiency = v > 0 ? w0 / (alpha * v) : 0.0;
+    return op;
+  }
+  return PointAtTorque(p, v, stall_torque / (1 + std::sqrt(1 + alpha * stall_torque / i0)));
+}
+
 }  // namespace
 
 OperatingPoint PointAtTorque(const MotorParams& p, double v, double torque) {
@@ -36,6 +54,18 @@ OperatingPoint PointAtTorque(const MotorParams& p, double v, double torque) {
   return op;
 }
 
+OperatingPoint PointAtSpeed(const MotorParams& p, double v, double w) {
+  OperatingPoint op;
+  op.speed = w;
+  op.current = (v - p.Vb - p.Ke * w) / p.R;
+  op.torque = p.Kt() * op.current - p.Tc - p.b * w;
+  op.power_out = op.torque * op.speed;
+  op.power_in = v * op.current;
+  op.efficiency =
+      (op.torque >= 0 && op.current > 0 && op.power_in > 0) ? op.power_out / op.power_in : 0.0;
+  return op;
+}
+
 Characteristics ComputeCharacteristics(const MotorParams& p, double v) {
   Characteristics c;
   c.voltage = v;
@@ -48,19 +78,7 @@ Characteristics ComputeCharacteristics(const MotorParams& p, double v) {
   c.stall_torque = std::max(0.0, w0 / s);
   // Output power T·(ω0 − s·T) peaks at T = ω0/(2s): half the stall torque.
   c.max_power = PointAtTorque(p, v, 0.5 * c.stall_torque);
-  // Efficiency is unimodal in T on [0, stall]: golden-section search.
-  double a = 0, b = c.stall_torque;
-  const double g = (std::sqrt(5.0) - 1) / 2;
-  double x1 = b - g * (b - a), x2 = a + g * (b - a);
-  double f1 = PointAtTorque(p, v, x1).efficiency, f2 = PointAtTorque(p, v, x2).efficiency;
-  for (int k = 0; k < 200 && b - a > 1e-15 * std::max(1.0, c.stall_torque); ++k) {
-    if (f1 < f2) {
-      a = x1; x1 = x2; f1 = f2; x2 = a + g * (b - a); f2 = PointAtTorque(p, v, x2).efficiency;
-    } else {
-      b = x2; x2 = x1; f2 = f1; x1 = b - g * (b - a); f1 = PointAtTorque(p, v, x1).efficiency;
-    }
-  }
-  c.max_efficiency = PointAtTorque(p, v, 0.5 * (a + b));
+  c.max_efficiency = MaxEfficiencyPoint(p, v, w0, s, c.stall_torque);
   c.motor_constant = p.Kt() / std::sqrt(p.R);
   c.mech_time_constant = MechanicalTimeConstant(p);
   return c;
@@ -103,6 +121,65 @@ CharacteristicsU ComputeCharacteristicsU(const MotorEstimate& e, double v) {
   const Eigen::Matrix<double, kNumCharacteristics, kNumCharacteristics> cc =
       jac * e.cov * jac.transpose();
   for (int i = 0; i < kNumCharacteristics; ++i) out.u(i) = std::sqrt(std::max(0.0, cc(i, i)));
+  return out;
+}
+
+namespace {
+
+/// The operating point at torque T on the straight torque–speed line, not clamped at stall,
+/// so that it is smooth in the parameters at every T (for the delta method at a fixed T).
+OperatingPoint PointOnLine(const MotorParams& p, double v, double torque) {
+  double w0, s;
+  SpeedLine(p, v, &w0, &s);
+  OperatingPoint op;
+  op.torque = torque;
+  op.speed = w0 - s * torque;
+  op.current = (torque + p.Tc + p.b * op.speed) / p.Kt();
+  op.power_out = op.torque * op.speed;
+  op.power_in = v * op.current;
+  op.efficiency = op.power_in != 0 ? op.power_out / op.power_in : 0.0;
+  return op;
+}
+
+Eigen::VectorXd PointVector(const OperatingPoint& op) {
+  Eigen::VectorXd x(6);
+  x << op.torque, op.speed, op.current, op.power_out, op.power_in, op.efficiency;
+  return x;
+}
+
+OperatingPoint PointFromVector(const Eigen::VectorXd& x, Eigen::Index at) {
+  OperatingPoint op;
+  op.torque = x(at);
+  op.speed = x(at + 1);
+  op.current = x(at + 2);
+  op.power_out = x(at + 3);
+  op.power_in = x(at + 4);
+  op.efficiency = x(at + 5);
+  return op;
+}
+
+}  // namespace
+
+CurvesU CharacteristicCurvesU(const MotorEstimate& e, double v, int n) {
+  CurvesU out;
+  out.voltage = v;
+  n = std::max(2, n);
+  const double ts = ComputeCharacteristics(e.value, v).stall_torque;
+  std::vector<double> torque(static_cast<size_t>(n));
+  for (int k = 0; k < n; ++k) torque[static_cast<size_t>(k)] = ts * k / (n - 1);
+  auto all = [&](const MotorParams& p) {
+    Eigen::VectorXd x(6 * n);
+    for (int k = 0; k < n; ++k) {
+      x.segment(6 * k, 6) = PointVector(PointOnLine(p, v, torque[static_cast<size_t>(k)]));
+    }
+    return x;
+  };
+  Eigen::VectorXd u = PropagateU(e, all);
+  for (int k = 0; k < n; ++k) {
+    out.value.push_back(PointAtTorque(e.value, v, torque[static_cast<size_t>(k)]));
+    u(6 * k) = 0;  // the abscissa
+    out.u.push_back(PointFromVector(u, 6 * k));
+  }
   return out;
 }
 

@@ -3,12 +3,17 @@
 // maximum-efficiency points — and their uncertainty from the fit's covariance.
 //
 // Steady state with L irrelevant: V − Vb = R·i + Ke·ω and Kt·i = T + Tc + b·ω, where T is
-// the output (load) torque. Uncertainty is propagated by the delta method: a central-
-// difference gradient of each figure with respect to the seven parameters, u² = gᵀ·C·g
-// (docs/design.md §uncertainty). SI units. Pure functions; thread-safe.
+// the output (load) torque. Speed falls linearly with torque, ω = ω0 − s·T, and current
+// rises linearly, i = α·T + I0, so the maximum-power point (T = Tstall/2) and the
+// maximum-efficiency point (T = Tstall/(1 + √(1 + α·Tstall/I0))) have closed forms.
+// Uncertainty is propagated by the delta method: a central-difference gradient of each
+// figure with respect to the seven parameters, u² = gᵀ·C·g (docs/design.md
+// §uncertainty of derived figures). SI units. Pure functions; thread-safe.
 #pragma once
 
 #include <Eigen/Core>
+#include <algorithm>
+#include <cmath>
 #include <vector>
 
 #include "model/params.h"
@@ -37,6 +42,11 @@ struct OperatingPoint {
 /// The operating point delivering output torque T at supply voltage v; speed clamps at 0
 /// (stall) when T exceeds what the motor can give.
 OperatingPoint PointAtTorque(const MotorParams& p, double v, double torque);
+
+/// The operating point running at speed w [rad/s] from supply voltage v: i = (v − Vb − Ke·ω)/R,
+/// T = Kt·i − Tc − b·ω. The torque is negative above the no-load speed (the shaft would
+/// have to be driven); efficiency is reported only where 0 ≤ T and i > 0, else 0.
+OperatingPoint PointAtSpeed(const MotorParams& p, double v, double w);
 
 /// The figures a user asks for at one supply voltage.
 struct Characteristics {
@@ -88,8 +98,54 @@ double DeltaMethodU(const MotorEstimate& e, F&& f);
 /// `n` points from no load to stall, evenly spaced in output torque.
 std::vector<OperatingPoint> TorqueSpeedCurve(const MotorParams& p, double v, int n = 101);
 
-// ---- implementation of the template
+/// The characteristic curves with a standard uncertainty at every point: value[k] is the
+/// operating point at output torque T_k (evenly spaced from 0 to the nominal stall torque),
+/// u[k] the standard uncertainty of each of its fields at that same T_k (u[k].torque = 0:
+/// torque is the abscissa). Speed, current, output and input power and efficiency each
+/// get their own delta-method band, computed on the straight torque–speed line (not
+/// clamped at stall, so the band is smooth up to and including the stall end).
+struct CurvesU {
+  double voltage = 0;
+  std::vector<OperatingPoint> value;
+  std::vector<OperatingPoint> u;
+};
+CurvesU CharacteristicCurvesU(const MotorEstimate& e, double v, int n = 101);
+
+/// Central-difference Jacobian of a vector-valued f(params) (rows: outputs, columns:
+/// parameters in ParamIndex order); columns of parameters with zero variance stay 0.
+template <typename F>
+Eigen::MatrixXd ParamJacobian(const MotorEstimate& e, F&& f);
+
+/// Delta method for several figures at once: u_i = √(J·C·Jᵀ)_ii.
+template <typename F>
+Eigen::VectorXd PropagateU(const MotorEstimate& e, F&& f);
+
+// ---- implementation of the templates
 double ParamStep(const MotorParams& p, int index);
+
+template <typename F>
+Eigen::MatrixXd ParamJacobian(const MotorEstimate& e, F&& f) {
+  const Eigen::VectorXd f0 = f(e.value);
+  Eigen::MatrixXd jac = Eigen::MatrixXd::Zero(f0.size(), kNumParams);
+  for (int j = 0; j < kNumParams; ++j) {
+    if (e.cov(j, j) <= 0) continue;
+    const double h = ParamStep(e.value, j);
+    MotorParams up = e.value, dn = e.value;
+    Set(&up, j, Get(e.value, j) + h);
+    Set(&dn, j, Get(e.value, j) - h);
+    jac.col(j) = (f(up) - f(dn)) / (2 * h);
+  }
+  return jac;
+}
+
+template <typename F>
+Eigen::VectorXd PropagateU(const MotorEstimate& e, F&& f) {
+  const Eigen::MatrixXd jac = ParamJacobian(e, f);
+  const Eigen::MatrixXd cc = jac * e.cov * jac.transpose();
+  Eigen::VectorXd u(cc.rows());
+  for (Eigen::Index i = 0; i < cc.rows(); ++i) u(i) = std::sqrt(std::max(0.0, cc(i, i)));
+  return u;
+}
 
 template <typename F>
 double DeltaMethodU(const MotorEstimate& e, F&& f) {

@@ -13,6 +13,9 @@
 //   sample.h       one timestamped instrument reading
 //   simulate.h     a bench simulator with realistic instruments
 //   demo.h         the invented demo motor and bench
+//   wire.h         magnet wire: AWG/metric sizes, enamel build, resistance per length
+//   winding.h      an armature winding (coils, turns, wire) and its mean turn length
+//   winding_faults.h  open/reversed/poor coils of a ring armature as the brushes see them
 // Thread-safety: everything is safe to call concurrently except a shared BenchSimulator.
 #pragma once
 
@@ -27,3 +30,6 @@
 #include "model/sample.h"
 #include "model/simulate.h"
 #include "model/units.h"
+#include "model/winding.h"
+#include "model/winding_faults.h"
+#include "model/wire.h"

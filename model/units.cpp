@@ -24,6 +24,10 @@ constexpr std::array kUnits = {
     UnitDef{"mN.m", Quantity::kTorque, 1e-3},
     UnitDef{"kg.m2", Quantity::kInertia, 1.0},
     UnitDef{"g.cm2", Quantity::kInertia, 1e-7},
+    UnitDef{"rad/(V.s)", Quantity::kSpeedConstant, 1.0},
+    UnitDef{"rpm/V", Quantity::kSpeedConstant, kRadPerSecPerRpm},
+    UnitDef{"N.m/A", Quantity::kTorqueConstant, 1.0},
+    UnitDef{"mN.m/A", Quantity::kTorqueConstant, 1e-3},
 };
 
 // Lower-case spellings people type for the same unit.
@@ -35,6 +39,10 @@ constexpr std::array kAliases = {
     Alias{"sec", "s"},   Alias{"msec", "ms"}, Alias{"µs", "us"}, Alias{"a", "A"},
     Alias{"ma", "mA"},   Alias{"v", "V"},     Alias{"mv", "mV"}, Alias{"RPM", "rpm"},
     Alias{"hz", "Hz"},   Alias{"rad_per_s", "rad/s"},
+    // The spellings of README and reports (middle dot, superscript, Greek capital omega).
+    Alias{"N·m", "N.m"}, Alias{"mN·m", "mN.m"}, Alias{"N·m/A", "N.m/A"},
+    Alias{"mN·m/A", "mN.m/A"}, Alias{"g·cm²", "g.cm2"}, Alias{"kg·m²", "kg.m2"},
+    Alias{"Ω", "ohm"}, Alias{"mΩ", "mohm"}, Alias{"RPM/V", "rpm/V"},
 };
 
 }  // namespace
@@ -48,6 +56,8 @@ const char* QuantityName(Quantity q) {
     case Quantity::kResistance: return "resistance";
     case Quantity::kTorque: return "torque";
     case Quantity::kInertia: return "inertia";
+    case Quantity::kSpeedConstant: return "speed constant";
+    case Quantity::kTorqueConstant: return "torque constant";
   }
   return "?";
 }
@@ -61,6 +71,8 @@ const char* SiUnitName(Quantity q) {
     case Quantity::kResistance: return "ohm";
     case Quantity::kTorque: return "N.m";
     case Quantity::kInertia: return "kg.m2";
+    case Quantity::kSpeedConstant: return "rad/(V.s)";
+    case Quantity::kTorqueConstant: return "N.m/A";
   }
   return "?";
 }

@@ -43,8 +43,25 @@ constexpr double HenryToMilliHenry(double l) { return l * 1e3; }
 // ---- Temperature
 constexpr double CelsiusToKelvin(double c) { return c + 273.15; }
 
+// ---- Wire and armature dimensions (magnet wire is sold in mm, inches and AWG)
+inline constexpr double kMetrePerInch = 0.0254;  // exact by definition
+inline constexpr double kMetrePerFoot = 0.3048;  // exact by definition
+constexpr double MmToMetre(double mm) { return mm * 1e-3; }
+constexpr double MetreToMm(double m) { return m * 1e3; }
+constexpr double Mm2ToMetre2(double mm2) { return mm2 * 1e-6; }
+constexpr double Metre2ToMm2(double m2) { return m2 * 1e6; }
+constexpr double InchToMetre(double in) { return in * kMetrePerInch; }
+constexpr double MetreToInch(double m) { return m / kMetrePerInch; }
+/// Resistance per length: Ω/m → Ω per 1000 ft (the NEMA magnet-wire tables' unit).
+constexpr double OhmPerMetreToOhmPer1000Ft(double r) { return r * 1000.0 * kMetrePerFoot; }
+constexpr double OhmPer1000FtToOhmPerMetre(double r) { return r / (1000.0 * kMetrePerFoot); }
+
 /// Physical quantities that a column or option may carry.
-enum class Quantity { kTime, kSpeed, kCurrent, kVoltage, kResistance, kTorque, kInertia };
+/// kSpeedConstant is Kv (SI rad/(V·s), the reciprocal of Ke); kTorqueConstant is Kt (SI N·m/A).
+enum class Quantity {
+  kTime, kSpeed, kCurrent, kVoltage, kResistance, kTorque, kInertia,
+  kSpeedConstant, kTorqueConstant
+};
 
 const char* QuantityName(Quantity q);
 

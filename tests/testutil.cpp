@@ -15,9 +15,11 @@ extern char** environ;
 
 namespace rb::testing {
 
-TempDir::TempDir() {
+TempDir::TempDir(Where where) {
   const char* base = std::getenv("TMPDIR");
-  std::string tmpl = std::string(base && *base ? base : "/tmp") + "/rotorbench-test-XXXXXX";
+  std::string root = base && *base ? base : "/tmp";
+  if (where == kPreferRamDisk && std::filesystem::is_directory("/dev/shm")) root = "/dev/shm";
+  std::string tmpl = root + "/rotorbench-test-XXXXXX";
   if (!::mkdtemp(tmpl.data())) throw std::runtime_error("mkdtemp failed");
   path_ = tmpl;
 }

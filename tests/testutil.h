@@ -9,7 +9,9 @@ namespace rb::testing {
 /// A fresh directory under $TMPDIR, removed with its contents on destruction.
 class TempDir {
  public:
-  TempDir();
+  enum Where { kTmpDir, kPreferRamDisk };
+  /// kTmpDir: under $TMPDIR (or /tmp); kPreferRamDisk: under /dev/shm when it exists.
+  explicit TempDir(Where where = kTmpDir);
   ~TempDir();
   TempDir(const TempDir&) = delete;
   TempDir& operator=(const TempDir&) = delete;

@@ -5,6 +5,7 @@
 
 #include "acquire/csv_import.h"
 #include "model/units.h"
+#include "tests/testutil.h"
 
 using namespace rb;
 using namespace rb::acquire;
@@ -113,4 +114,16 @@ TEST_CASE("export text re-imports to the same values") {
   auto b = Parse(out);
   REQUIRE(b.ok());
   REQUIRE(b->samples.size() == a->samples.size());
+}
+
+TEST_CASE("regression (found by fuzzing): a quoted header spanning lines still gives a "
+          "one-line error") {
+  const std::string input = rb::testing::ReadFile(
+      rb::testing::Fixture("fuzz/csv/regression-newline-in-header.csv"));
+  auto r = Parse(input);
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.status().message().rfind("run.csv:", 0) == 0);
+  CHECK(r.status().message().find('\n') == std::string::npos);
+  CHECK(Err("time_s,current_a\n0,1\n0.1,\"a\nb\"\n").find("'a\\nb' is not a number") !=
+        std::string::npos);
 }
