@@ -45,10 +45,6 @@ struct Slot {
   std::array<std::size_t, kGroups> rejected{};  // raw readings rejected per group
 };
 
-
-
-
-
 double Floor(double s, double scale) {
   const double f = std::max(1e-9, 1e-4 * scale);
   return std::isfinite(s) && s > f ? s : f;
@@ -329,31 +325,8 @@ Result<EngineResult> RunEngine(const std::vector<RunData>& runs, const FitOption
     extra[kLogL] = std::log(std::max(st.L, 1e-9));
     for (size_t k = 0; k < slots.size(); ++k) slots[k].nuis = nuis0[k];
     plan_all();
-    for (Slot& s : slots) {  // DEBUG
-      std::vector<double> rr(static_cast<size_t>(s.model.NumResiduals()));
-      std::vector<double*> pp = {core.data()};
-      if (use_extra) pp.push_back(extra.data());
-      pp.push_back(s.nuis.data());
-      std::vector<double> jac(static_cast<size_t>(s.model.NumResiduals()) * 20);
-      std::vector<double*> jj = {jac.data(), use_extra ? jac.data() + rr.size() * 5 : nullptr, jac.data() + rr.size() * 8};
-      if (!use_extra) jj = {jac.data(), jac.data() + rr.size() * 5};
-      bool ok1 = s.cost->Evaluate(pp.data(), rr.data(), nullptr);
-      bool ok2 = s.cost->Evaluate(pp.data(), rr.data(), jj.data());
-      if (!ok1 || !ok2) std::fprintf(stderr, "run %lld kind %d eval %d jac %d\n", (long long)s.prep->id, (int)s.prep->kind, ok1, ok2);
-    }
-    {
-      double cst = 0; std::vector<double> rr; ceres::CRSMatrix jm;
-      ceres::Problem::EvaluateOptions eo;
-      bool ok = problem.Evaluate(eo, &cst, &rr, nullptr, &jm);
-      int nn = 0; for (double v : jm.values) nn += !std::isfinite(v);
-      int nr = 0; for (double v : rr) nr += !std::isfinite(v);
-      std::fprintf(stderr, "problem eval %d cost %g nonfinite jac %d res %d of %zu cols %d\n", ok, cst, nn, nr, jm.values.size(), jm.num_cols);
-      for (size_t q = 0; q < jm.values.size(); ++q) if (!std::isfinite(jm.values[q])) { std::fprintf(stderr, "  col %d\n", jm.cols[q]); break; }
-      std::vector<ceres::ResidualBlockId> ids; problem.GetResidualBlocks(&ids);
-      for (auto id : ids) { double c2 = 0; bool ok2 = problem.EvaluateResidualBlock(id, false, &c2, nullptr, nullptr); if (!ok2) std::fprintf(stderr, " block fails\n"); }
-    }
     lsq::Result r1 = lsq::Solve(&problem, blocks, o1);
-    iterations += r1.iterations; std::fprintf(stderr, "stage1 %s\n", r1.termination.c_str());
+    iterations += r1.iterations;
     if (r1.rss < best) {
       best = r1.rss;
       best_core = core;

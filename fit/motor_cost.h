@@ -153,7 +153,12 @@ struct RunCostExtra {
 template <typename T>
 T OnTime(const RunModel& m, const T& u) {
   using std::exp;
-  return m.run->on_lo + (m.run->on_hi - m.run->on_lo) / (1.0 + exp(-u));
+  // Evaluated so that exp() never overflows: a long solver step in u must not turn the
+  // derivative into inf/inf (the step would then end the solve).
+  const double span = m.run->on_hi - m.run->on_lo;
+  if (model::ScalarPart(u) >= 0) return m.run->on_lo + span / (1.0 + exp(-u));
+  const T e = exp(u);
+  return m.run->on_lo + span * e / (1.0 + e);
 }
 
 /// Random effect of the rotor position: log(R_k/R) ~ N(0, spread²).

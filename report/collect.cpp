@@ -89,7 +89,12 @@ Result<ReportInput> CollectReportInput(storage::Database& db, const CollectOptio
       Result<std::vector<model::Sample>> s = CalibratedSamples(db, rec.id);
       if (!s.ok()) return s.status().WithPrefix(fmt::format("run {}", rec.id));
       rr.samples = std::move(*s);
-      fit::RunData data{rec.id, rec.kind, rec.nominal_voltage, rec.ambient_C, rr.samples};
+      fit::RunData data;
+      data.id = rec.id;
+      data.kind = rec.kind;
+      data.nominal_voltage = rec.nominal_voltage;
+      data.ambient_C = rec.ambient_C;
+      data.samples = rr.samples;
       if (predict) {
         Result<fit::RunPrediction> p = predict(primary, data);
         if (p.ok()) {
