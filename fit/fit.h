@@ -20,6 +20,7 @@
 #include <nlohmann/json_fwd.hpp>
 
 #include "base/status.h"
+#include "model/calibration.h"
 #include "model/characteristics.h"
 #include "model/params.h"
 #include "model/sample.h"
@@ -52,6 +53,16 @@ struct FitOptions {
   std::vector<std::int64_t> run_ids;
   /// Winding temperature for the 20 °C correction of R; NaN = the runs' ambient, if any.
   double winding_temperature_C = NAN;
+  /// Standard uncertainty of that temperature [K] (an ambient thermometer: 1 K).
+  double temperature_u_K = 1.0;
+  /// Start values instead of the closed-form estimates (tests and experts); nullopt = from
+  /// the data. A bad start costs iterations, not the answer.
+  std::optional<model::MotorParams> start;
+  /// Average dense current/voltage samples in short bins before fitting (much faster; see
+  /// fit/README.md for why this loses nothing the model can use).
+  bool average_dense_samples = true;
+  /// Solver threads; 0 = up to 2.
+  int threads = 0;
 };
 
 /// One parameter of the result (SI).
@@ -60,6 +71,10 @@ struct ParamResult {
   double value = 0;
   double stderr_stat = 0;  ///< statistical standard error, s²(JᵀJ)⁻¹ at the solution
   double u_combined = 0;   ///< combined standard uncertainty incl. instruments (GUM)
+  /// false: the runs cannot determine this parameter (value NaN, not fitted; a diagnostic
+  /// says why and which run would fix it). A parameter held fixed by the model choice
+  /// (e.g. L = 0) stays "identified" with fitted = false.
+  bool identified = true;
 };
 
 /// One line of an uncertainty budget: the standard uncertainty a source contributes.
@@ -106,6 +121,9 @@ struct FitSummary {
   std::optional<double> R20, R20_u;     ///< R corrected to 20 °C (IEC 60028 α20) [Ω]
   std::vector<Diagnostic> diagnostics;
   std::vector<RunFit> runs;
+  /// Further estimates outside the seven motor constants, by name (SI), e.g.
+  /// "winding_heat_capacity_J_per_K" with the heating model.
+  std::vector<std::pair<std::string, ParamResult>> extra;
   int iterations = -1;
   double final_cost = -1;
   std::string termination = "not run";
@@ -135,6 +153,13 @@ struct RunData {
   std::optional<double> nominal_voltage;
   std::optional<double> ambient_C;
   std::vector<model::Sample> samples;
+  /// The calibration that was applied to the samples; its uncertainties (gain, offset)
+  /// enter the uncertainty budget. nullopt = none declared.
+  std::optional<model::Calibration> calibration;
+  /// Tach marks per revolution; 0 = unknown (the pitch is inferred from the readings).
+  int marks_per_rev = 0;
+  /// Output switch events logged by the rig [s since run start]; empty = found in the data.
+  std::vector<double> output_on_s, output_off_s;
 };
 
 /// Fits one parameter set to the given runs (all of one motor).

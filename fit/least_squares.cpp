@@ -264,7 +264,7 @@ Result Solve(ceres::Problem* problem, const std::vector<Block>& blocks, const Op
     so.trust_region_strategy_type = ceres::LEVENBERG_MARQUARDT;
     const long long work = static_cast<long long>(problem->NumResiduals()) *
                            static_cast<long long>(problem->NumParameters());
-    if (work <= 4'000'000) {
+    if (work <= 4'000'000 && !options.sparse) {
       so.linear_solver_type = ceres::DENSE_QR;
     } else if (ceres::IsSparseLinearAlgebraLibraryTypeAvailable(ceres::SUITE_SPARSE)) {
       so.linear_solver_type = ceres::SPARSE_NORMAL_CHOLESKY;
@@ -294,6 +294,12 @@ Result Solve(ceres::Problem* problem, const std::vector<Block>& blocks, const Op
   engine.SelectFree(&out);
   const int p = engine.p();
   out.num_free = p;
+  if (!options.covariance) {
+    out.rss = ResidualSumOfSquares(problem);
+    out.seconds =
+        std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    return out;
+  }
 
   Pass pass = engine.Run(false);
   if (!pass.ok) {
@@ -302,7 +308,6 @@ Result Solve(ceres::Problem* problem, const std::vector<Block>& blocks, const Op
     out.rss = NAN;
     return out;
   }
-  bool pass_is_current = true;
   if (options.polish && p > 0) {
     double rss = options.precise_residuals ? engine.Rss() : pass.rss;
     for (int it = 0; it < options.polish_iterations; ++it) {
@@ -345,9 +350,12 @@ Result Solve(ceres::Problem* problem, const std::vector<Block>& blocks, const Op
   }
   if (options.num_perturbations > 0) {
     pass = engine.Run(true);
-    pass_is_current = pass.ok;
+    if (!pass.ok) {
+      out.termination += "; the Jacobian could not be evaluated at the solution";
+      out.converged = false;
+      return out;
+    }
   }
-  (void)pass_is_current;
   out.iterations += out.polish_steps;
   out.rss = options.precise_residuals ? engine.Rss() : pass.rss;
 

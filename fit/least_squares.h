@@ -56,6 +56,10 @@ struct Options {
   int num_perturbations = 0;
   std::function<void(ceres::ResidualBlockId, int rows, Eigen::MatrixXd* dr)> perturbations;
   bool run_solver = true;  ///< false: only polish/covariance at the given values
+  bool covariance = true;  ///< false: stop after the solver (no polish, no covariance)
+  /// Block-sparse normal equations (few shared parameters, many per-block ones) instead
+  /// of a dense QR of the whole Jacobian (kept for small problems: most accurate).
+  bool sparse = false;
 };
 
 struct Result {

@@ -118,7 +118,16 @@ json ToJson(const FitSummary& s) {
         {"value", Num(p.value)},
         {"stderr", p.fitted ? Num(p.stderr_stat) : json(nullptr)},
         {"u_combined", p.fitted ? Num(p.u_combined) : json(nullptr)},
-        {"fitted", p.fitted}};
+        {"fitted", p.fitted},
+        {"identified", p.identified}};
+  }
+  json extra = json::object();
+  for (const auto& [name, p] : s.extra) {
+    extra[name] = {{"value", Num(p.value)},
+                   {"stderr", p.identified ? Num(p.stderr_stat) : json(nullptr)},
+                   {"u_combined", p.identified ? Num(p.u_combined) : json(nullptr)},
+                   {"fitted", p.fitted},
+                   {"identified", p.identified}};
   }
   // Derived views: Kt = Ke in SI; Kv = 60/(2π·Ke) in rpm/V (relative errors carry over).
   const ParamResult& ke = s.params[model::kKe];
@@ -128,7 +137,8 @@ json ToJson(const FitSummary& s) {
       {"value", Num(kv)},
       {"stderr", ke.fitted ? Num(kv * ke.stderr_stat / ke.value) : json(nullptr)},
       {"u_combined", ke.fitted ? Num(kv * ke.u_combined / ke.value) : json(nullptr)},
-      {"fitted", ke.fitted}};
+      {"fitted", ke.fitted},
+      {"identified", ke.identified}};
 
   json order = json::array();
   for (auto n : model::kParamNames) order.push_back(std::string(n));
@@ -170,6 +180,7 @@ json ToJson(const FitSummary& s) {
           {"model", s.model.Name()},
           {"software_version", s.software_version},
           {"parameters", params},
+          {"extra_parameters", extra},
           {"covariance", {{"order", order},
                           {"combined", MatrixJson(s.covariance)},
                           {"statistical", MatrixJson(s.covariance_stat)}}},
@@ -203,6 +214,17 @@ Result<FitSummary> FitSummaryFromJson(const json& j) {
     r.stderr_stat = NumOr(p.value("stderr", json(nullptr)), 0.0);
     r.u_combined = NumOr(p.value("u_combined", json(nullptr)), 0.0);
     r.fitted = p.value("fitted", false);
+    // Older fits lack "identified": a parameter without a value was not determined.
+    r.identified = p.value("identified", std::isfinite(r.value));
+  }
+  for (const auto& [name, p] : j.value("extra_parameters", json::object()).items()) {
+    ParamResult r;
+    r.value = NumOr(p.value("value", json(nullptr)));
+    r.stderr_stat = NumOr(p.value("stderr", json(nullptr)), 0.0);
+    r.u_combined = NumOr(p.value("u_combined", json(nullptr)), 0.0);
+    r.fitted = p.value("fitted", false);
+    r.identified = p.value("identified", std::isfinite(r.value));
+    s.extra.emplace_back(name, r);
   }
   if (j.contains("covariance")) {
     RB_RETURN_IF_ERROR(MatrixFromJson(j["covariance"].value("combined", json()), &s.covariance));

@@ -92,7 +92,12 @@ Result<ReportInput> CollectReportInput(storage::Database& db, const CollectOptio
       Result<std::vector<storage::RunEvent>> ev = db.ListEvents(rec.id);
       if (!ev.ok()) return ev.status().WithPrefix(fmt::format("run {}", rec.id));
       rr.events = std::move(*ev);
-      fit::RunData data{rec.id, rec.kind, rec.nominal_voltage, rec.ambient_C, rr.samples};
+      fit::RunData data;
+      data.id = rec.id;
+      data.kind = rec.kind;
+      data.nominal_voltage = rec.nominal_voltage;
+      data.ambient_C = rec.ambient_C;
+      data.samples = rr.samples;
       if (predict) {
         Result<fit::RunPrediction> p = predict(primary, data);
         if (p.ok()) {
