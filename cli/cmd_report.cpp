@@ -99,9 +99,7 @@ void AddReportCommands(CLI::App& app, Context& ctx) {
       co.motor = ro->motor;
       co.fit_ids = ro->fits;
       co.voltage = ro->voltage;
-      // TODO(report): pass fit::PredictRun once the fitter provides it; until then the runs
-      // are plotted without the fitted curve and the report says so.
-      Result<report::ReportInput> in = report::CollectReportInput(*db, co, nullptr);
+      Result<report::ReportInput> in = report::CollectReportInput(*db, co, fit::PredictRun);
       if (!in.ok()) return in.status();
       Result<report::ReportSummary> rep = report::BuildReport(*in);
       if (!rep.ok()) return rep.status();

@@ -36,5 +36,6 @@ void AddDaemonCommands(CLI::App& app, Context& ctx);    // daemon, bench, status
 void AddRewindCommands(CLI::App& app, Context& ctx);  // rewind plan/suggest/verify/show/wires
 void AddQaCommands(CLI::App& app, Context& ctx);  // qa spec | check | batch | plan
 void AddReportCommands(CLI::App& app, Context& ctx);  // report, curves
+void AddFitCommands(CLI::App& app, Context& ctx);     // fit, fit list, fit show
 
 }  // namespace rb::cli

@@ -51,6 +51,7 @@ int Main(int argc, char** argv) {
   AddRewindCommands(app, ctx);
   AddQaCommands(app, ctx);
   AddReportCommands(app, ctx);
+  AddFitCommands(app, ctx);
 
   try {
     app.parse(argc, argv);

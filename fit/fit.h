@@ -59,7 +59,7 @@ struct FitOptions {
   /// the data. A bad start costs iterations, not the answer.
   std::optional<model::MotorParams> start;
   /// Average dense current/voltage samples in short bins before fitting (much faster; see
-  /// fit/README.md for why this loses nothing the model can use).
+  /// docs/design.md, "fit — the motor fitter" for why this loses nothing the model can use).
   bool average_dense_samples = true;
   /// Solver threads; 0 = up to 2.
   int threads = 0;

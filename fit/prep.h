@@ -8,7 +8,7 @@
 //     the model is compared over the same window (θ(t_k) − θ(t_prev))/(t_k − t_prev); a
 //     zero reading only means "no mark within the tach's timeout" and is not used;
 //   * current and voltage: ADC samples, averaged in short bins of consecutive samples in
-//     the same drive state (documented in fit/README.md: bins are shorter than 1/20 of the
+//     the same drive state (docs/design.md, "fit — the motor fitter": bins are shorter than 1/20 of the
 //     mechanical time constant and never straddle a switch; averaging also smooths the
 //     commutator ripple, which is far larger than the instrument noise).
 // SI units. Pure functions; thread-safe.

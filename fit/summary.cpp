@@ -217,7 +217,9 @@ Result<FitSummary> FitSummaryFromJson(const json& j) {
     // Older fits lack "identified": a parameter without a value was not determined.
     r.identified = p.value("identified", std::isfinite(r.value));
   }
-  for (const auto& [name, p] : j.value("extra_parameters", json::object()).items()) {
+  // A named copy: items() of the temporary value() returns would dangle in the loop.
+  const json extra_params = j.value("extra_parameters", json::object());
+  for (const auto& [name, p] : extra_params.items()) {
     ParamResult r;
     r.value = NumOr(p.value("value", json(nullptr)));
     r.stderr_stat = NumOr(p.value("stderr", json(nullptr)), 0.0);
