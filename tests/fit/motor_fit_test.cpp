@@ -58,6 +58,8 @@ TEST_CASE("standard plan, 20 seeds: every constant within its tolerance, k=2 cov
       if (std::fabs(p.value - tv) <= 2 * p.u_combined) ++covered[k];
     }
   }
+  table += fmt::format("k=2 coverage: R {}/20, Ke {}/20, J {}/20, Tc {}/20, b {}/20\n", covered[0],
+                       covered[1], covered[2], covered[3], covered[4]);
   MESSAGE("\n" << table);
   for (int k = 0; k < 5; ++k) {
     CHECK_MESSAGE(covered[k] >= 18, model::kParamNames[static_cast<size_t>(kChecked[k])], ": ",
