@@ -2,6 +2,7 @@
 #pragma once
 
 #include <algorithm>
+#include <cmath>
 #include <chrono>
 #include <cstdio>
 #include <string>
@@ -31,6 +32,37 @@ double TimeIt(F&& fn) {
   const auto t0 = std::chrono::steady_clock::now();
   fn();
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+}
+
+/// One row of the suite's table (scripts/bench collects every line starting with "| ").
+struct Row {
+  std::string what;      ///< what was measured
+  std::string size;      ///< the size of the work
+  Stats value;           ///< median and min–max of the repetitions
+  std::string unit;
+  std::string baseline;  ///< what the baseline is (measured in the same run)
+  Stats base;            ///< the baseline's median and min–max
+  std::string target;    ///< the goal, in words ("≥ 200 MB/s"); empty = none
+  bool met = true;       ///< whether the goal was met
+};
+
+inline std::string Num(double x) {
+  char b[32];
+  std::snprintf(b, sizeof b, std::fabs(x) >= 1000 ? "%.0f" : "%.3g", x);
+  return b;
+}
+
+/// Prints a markdown table row: what | size | median (min–max) unit | baseline | ratio | goal.
+inline void PrintRow(const Row& r) {
+  const std::string base = r.base.median != 0
+      ? r.baseline + ": " + Num(r.base.median) + " (" + Num(r.base.min) + "–" + Num(r.base.max) + ")"
+      : r.baseline;
+  const std::string ratio = r.base.median != 0 ? Num(r.value.median / r.base.median) : "–";
+  std::printf("| %s | %s | %s (%s–%s) %s | %s | %s | %s%s |\n", r.what.c_str(), r.size.c_str(),
+              Num(r.value.median).c_str(), Num(r.value.min).c_str(), Num(r.value.max).c_str(),
+              r.unit.c_str(), base.c_str(), ratio.c_str(), r.target.empty() ? "–" : r.target.c_str(),
+              r.target.empty() ? "" : (r.met ? " ✔" : " ✘ missed"));
+  std::fflush(stdout);
 }
 
 inline void PrintMethod(const char* what) {

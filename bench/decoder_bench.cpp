@@ -91,6 +91,10 @@ int main() {
                 w == &clean ? "clean stream" : "10 % garbage", d.median, d.min, d.max, c.median, c.min, c.max,
                 d.median / c.median, frames, frames_built,
                 d.median * 1e6 / static_cast<double>(w->size()) * static_cast<double>(samples));
+    const bool clean_stream = w == &clean;
+    bench::PrintRow({clean_stream ? "1. frame decoding, valid frames" : "1. frame decoding, 10 % garbage",
+                     "64 MiB × 7", d, "MB/s", "memcpy of the same bytes", c,
+                     clean_stream ? "≥ 200 MB/s" : "", d.median >= 200});
   }
   return 0;
 }

@@ -153,6 +153,11 @@ int main(int argc, char** argv) {
   row("baseline: raw SQLite rows read back in order", raw_rd, rr.median);
   row("chosen: one run read back in order via storage/", rd, rr.median);
   std::printf("# ratio: insert rows vs the raw insert rate; read rows vs the raw read rate\n");
+  const std::string size = std::to_string(n) + " samples";
+  rb::bench::PrintRow({"storage: chunked insert via storage/, 1000/txn", size, rb::bench::Summarise(ins1000),
+                       "samples/s", "raw prepared INSERT per row", r, "", true});
+  rb::bench::PrintRow({"storage: one run read back in order", size, rb::bench::Summarise(rd), "samples/s",
+                       "raw rows read in order", rr, "", true});
   for (const char* f : {"rb_bench_raw.db", "rb_bench_chunk.db", "rb_bench_chunk250.db"}) {
     for (const char* suffix : {"", "-wal", "-shm"}) unlink((dir + "/" + f + suffix).c_str());
   }

@@ -89,12 +89,19 @@ Result<ReportInput> CollectReportInput(storage::Database& db, const CollectOptio
       Result<std::vector<model::Sample>> s = CalibratedSamples(db, rec.id);
       if (!s.ok()) return s.status().WithPrefix(fmt::format("run {}", rec.id));
       rr.samples = std::move(*s);
+      Result<std::vector<storage::RunEvent>> ev = db.ListEvents(rec.id);
+      if (!ev.ok()) return ev.status().WithPrefix(fmt::format("run {}", rec.id));
+      rr.events = std::move(*ev);
       fit::RunData data;
       data.id = rec.id;
       data.kind = rec.kind;
       data.nominal_voltage = rec.nominal_voltage;
       data.ambient_C = rec.ambient_C;
       data.samples = rr.samples;
+      for (const storage::RunEvent& e : rr.events) {  // the rig's switch times, as the fit used
+        if (e.kind == "output_on") data.output_on_s.push_back(e.t);
+        if (e.kind == "output_off") data.output_off_s.push_back(e.t);
+      }
       if (predict) {
         Result<fit::RunPrediction> p = predict(primary, data);
         if (p.ok()) {
