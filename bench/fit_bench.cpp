@@ -19,7 +19,7 @@
 //    twice: with the demo motor's inductance (the fitter's quasi-static current then leaves a
 //    bias of order (L/R)/τm in R and J) and with L → 0 (the fitter's model exact).
 //
-//   fit_bench [repeats=5] [seeds=50] [max_samples=1000000]
+//   fit_bench [repeats=5] [seeds=50] [max_samples=1000000]   or   fit_bench --quick
 // (e.g. `fit_bench 3 10 100000` for a quick look). No asserts: figures only.
 #include <sys/resource.h>
 #include <sys/wait.h>
@@ -43,6 +43,10 @@ using rb::fit::RunData;
 namespace model = rb::model;
 
 constexpr double kBaseRateHz = 2000;
+
+rb::bench::Stats Scaled(const rb::bench::Stats& s, double f) {
+  return {s.median * f, s.min * f, s.max * f};
+}
 
 /// The standard plan (or the quick plan) on `bench`.
 std::vector<RunData> Plan(model::BenchModel bench, std::uint64_t seed, bool quick) {
@@ -145,7 +149,7 @@ Mem MeasureMemory(const std::vector<RunData>& runs) {
   return m;
 }
 
-void SizeRows(int repeats, double max_samples) {
+void SizeRows(int repeats, double max_samples, std::vector<rb::bench::Row>& rows) {
   std::printf("\n## fit time and memory vs data size (standard plan, 10 runs)\n");
   std::printf("%-10s %10s %12s %22s %14s %8s %14s\n", "target", "readings", "fit median",
               "[min, max]", "model pass", "ratio", "peak RSS +MB");
@@ -168,11 +172,20 @@ void SizeRows(int repeats, double max_samples) {
     std::printf("%-10.0f %10zu %10.1f ms %9.1f – %7.1f ms %11.1f ms %8.1f %14.1f%s\n", target,
                 Count(runs), f.median * 1e3, f.min * 1e3, f.max * 1e3, b.median * 1e3,
                 f.median / b.median, (m.after_kb - m.before_kb) / 1024.0, ok ? "" : "  (fit FAILED)");
+    const std::string size = std::to_string(Count(runs)) + " readings, 10 runs";
+    rb::bench::Row row{"fit, standard plan", size, Scaled(f, 1e3), "ms", "one model pass",
+                       Scaled(b, 1e3), "", true};
+    if (target == 30e3) row.target = "≤ 250 ms", row.met = f.median <= 0.25;
+    rows.push_back(row);
+    const double mb = (m.after_kb - m.before_kb) / 1024.0;
+    rb::bench::Row mem{"fit peak memory (child process)", size, {mb, mb, mb}, "MB", "–", {}, "", true};
+    if (target == 1e6) mem.target = "≤ 200 MB", mem.met = mb <= 200;
+    rows.push_back(mem);
   }
   std::printf("targets (issue 9): 30k readings <= 250 ms; linear growth; <= 200 MB at 1M\n");
 }
 
-void QuickRow(int repeats) {
+void QuickRow(int repeats, std::vector<rb::bench::Row>& rows) {
   const model::BenchModel bench = model::DemoBench(10);
   const std::vector<RunData> runs = Plan(bench, 10, true);
   const rb::fit::FitSummary truth = Truth(bench.motor, runs);
@@ -185,6 +198,9 @@ void QuickRow(int repeats) {
   std::printf("\n## quick plan (spin-up + 40 %% of a coast-down): %zu readings\n", Count(runs));
   std::printf("fit median %.1f ms [%.1f – %.1f]; model pass %.2f ms; ratio %.1f; target <= 50 ms\n",
               f.median * 1e3, f.min * 1e3, f.max * 1e3, b.median * 1e3, f.median / b.median);
+  rows.push_back({"fit, quick plan", std::to_string(Count(runs)) + " readings, 2 runs",
+                  Scaled(f, 1e3), "ms", "one model pass", Scaled(b, 1e3), "≤ 50 ms",
+                  f.median <= 0.05});
 }
 
 model::BenchModel IdealBench(std::uint64_t seed, bool no_inductance) {
@@ -252,7 +268,7 @@ Eigen::VectorXd CramerRao(const model::BenchModel& bench) {
   return F.inverse().diagonal().cwiseSqrt();
 }
 
-void EfficiencyRows(int seeds, bool no_inductance) {
+void EfficiencyRows(int seeds, bool no_inductance, std::vector<rb::bench::Row>& rows) {
   std::printf("\n## statistical efficiency: RMS error over %d seeds / Cramér–Rao bound (ideal bench, %s)\n",
               seeds, no_inductance ? "L -> 0" : "demo motor's L = 0.35 mH");
   const model::BenchModel b1 = IdealBench(1, no_inductance);
@@ -285,6 +301,14 @@ void EfficiencyRows(int seeds, bool no_inductance) {
                 std::string(model::kParamNames[static_cast<size_t>(i)]).c_str(),
                 model::Get(b1.motor, i), sum(a) / std::max(n, 1), rms, crb(a), rms / crb(a),
                 se(a) / std::max(n, 1) / crb(a));
+    const double ratio = rms / crb(a);
+    rb::bench::Row row{std::string("RMS error / Cramér–Rao bound, ") +
+                           std::string(model::kParamNames[static_cast<size_t>(i)]) +
+                           (no_inductance ? " (L → 0)" : ""),
+                       std::to_string(n) + " seeds, ideal bench", {ratio, ratio, ratio}, "", "–", {},
+                       "", true};
+    if (i == model::kR || i == model::kKe || i == model::kJ) row.target = "≤ 1.2", row.met = ratio <= 1.2;
+    rows.push_back(row);
   }
   std::printf("fits: %d of %d seeds; target ratio <= 1.2 for R, Ke, J (issue 9)\n", n, seeds);
 }
@@ -293,15 +317,20 @@ void EfficiencyRows(int seeds, bool no_inductance) {
 
 int main(int argc, char** argv) {
   rb::fit::InitLogging(argv[0]);
-  const int repeats = argc > 1 ? std::max(1, std::atoi(argv[1])) : 5;
-  const int seeds = argc > 2 ? std::max(2, std::atoi(argv[2])) : 50;
-  const double max_samples = argc > 3 ? std::atof(argv[3]) : 1e6;
+  // `--quick`: a smoke run for scripts/bench --quick (3 repeats, 10 seeds, up to 100k).
+  const bool quick = argc > 1 && std::string(argv[1]) == "--quick";
+  const int repeats = quick ? 3 : argc > 1 ? std::max(1, std::atoi(argv[1])) : 5;
+  const int seeds = quick ? 10 : argc > 2 ? std::max(2, std::atoi(argv[2])) : 50;
+  const double max_samples = quick ? 1e5 : argc > 3 ? std::atof(argv[3]) : 1e6;
   rb::bench::PrintMethod("motor fit: time, memory, statistical efficiency");
   std::printf("# repeats %d, seeds %d, largest plan %.0f readings; solver threads: up to 2\n",
               repeats, seeds, max_samples);
-  SizeRows(repeats, max_samples);
-  QuickRow(repeats);
-  EfficiencyRows(seeds, false);
-  EfficiencyRows(seeds, true);
+  std::vector<rb::bench::Row> rows;
+  SizeRows(repeats, max_samples, rows);
+  QuickRow(repeats, rows);
+  EfficiencyRows(seeds, false, rows);
+  EfficiencyRows(seeds, true, rows);
+  std::printf("\n");
+  for (const rb::bench::Row& r : rows) rb::bench::PrintRow(r);  // the suite's table rows
   return 0;
 }

@@ -482,7 +482,7 @@ Result<EngineResult> RunEngine(const std::vector<RunData>& runs, const FitOption
   };
   lsq::Result r3 = lsq::Solve(&problem, blocks, o3);
   iterations += r3.iterations;
-  E.converged = r3.converged || r3.polish_steps > 0 || r3.termination == "NO_CONVERGENCE";
+  E.converged = r3.converged || r3.polish_steps > 0;
   S.termination = r3.termination;
   S.iterations = iterations;
   if (!std::isfinite(r3.rss)) {

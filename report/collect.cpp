@@ -98,6 +98,10 @@ Result<ReportInput> CollectReportInput(storage::Database& db, const CollectOptio
       data.nominal_voltage = rec.nominal_voltage;
       data.ambient_C = rec.ambient_C;
       data.samples = rr.samples;
+      for (const storage::RunEvent& e : rr.events) {  // the rig's switch times, as the fit used
+        if (e.kind == "output_on") data.output_on_s.push_back(e.t);
+        if (e.kind == "output_off") data.output_off_s.push_back(e.t);
+      }
       if (predict) {
         Result<fit::RunPrediction> p = predict(primary, data);
         if (p.ok()) {

@@ -103,6 +103,7 @@ TEST_CASE("fit: one-line errors, exit != 0, nothing stored") {
   const std::string db = dir.File("bench.db");
   REQUIRE(RunRotorbench({"--db", db, "motor", "add", "A"}).exit_code == 0);
   REQUIRE(RunRotorbench({"--db", db, "motor", "add", "B"}).exit_code == 0);
+  REQUIRE(RunRotorbench({"--db", db, "motor", "add", "C"}).exit_code == 0);  // no runs
   REQUIRE(AddRun(dir, db, "A", "steady", 6.0, 1));  // run 1: one steady state
   REQUIRE(AddRun(dir, db, "B", "spinup", 6.0, 2));  // run 2
   struct Case {
@@ -111,6 +112,7 @@ TEST_CASE("fit: one-line errors, exit != 0, nothing stored") {
   };
   const Case cases[] = {
       {{"fit", "--motor", "nobody"}, "nobody"},
+      {{"fit", "--motor", "C"}, "no finished runs"},
       {{"fit"}, "--motor"},
       {{"fit", "--motor", "A", "--runs", "1,2"}, "belongs to motor"},
       {{"fit", "--motor", "A"}, "cannot determine"},  // a single steady state

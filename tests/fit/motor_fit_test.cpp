@@ -58,6 +58,8 @@ TEST_CASE("standard plan, 20 seeds: every constant within its tolerance, k=2 cov
       if (std::fabs(p.value - tv) <= 2 * p.u_combined) ++covered[k];
     }
   }
+  table += fmt::format("k=2 coverage: R {}/20, Ke {}/20, J {}/20, Tc {}/20, b {}/20\n", covered[0],
+                       covered[1], covered[2], covered[3], covered[4]);
   MESSAGE("\n" << table);
   for (int k = 0; k < 5; ++k) {
     CHECK_MESSAGE(covered[k] >= 18, model::kParamNames[static_cast<size_t>(kChecked[k])], ": ",
@@ -242,4 +244,38 @@ TEST_CASE("quick plan (one spin-up and one coast-down): Ke and J from under 5k s
   MESSAGE("quick plan: ", n, " samples fitted in ", s->solve_seconds, " s");
   CHECK(s->params[model::kKe].value == doctest::Approx(bench.motor.Ke).epsilon(0.01));
   CHECK(s->params[model::kJ].value == doctest::Approx(bench.motor.J).epsilon(0.05));
+}
+
+TEST_CASE("bad input: one-line errors naming the run and the sample") {
+  // Source: the fitter's contract (fit/fit.h, issue 4): no runs, NaN times, infinite
+  // readings and runs without any reading are errors, never a result.
+  CHECK(FitRuns({}, {}).status().code() == Code::kInvalidArgument);
+  CHECK(FitRuns({}, {}).status().message().find("no runs") != std::string::npos);
+  const model::BenchModel bench = model::DemoBench(11);
+  std::vector<RunData> runs = testing::StandardPlan(bench, 11);
+  REQUIRE(runs.size() == 10);
+  struct Case {
+    void (*spoil)(RunData*);
+    const char* says;
+  };
+  const Case cases[] = {
+      {[](RunData* r) { r->samples[5].t = NAN; }, "sample 6: time is not a finite number"},
+      {[](RunData* r) { r->samples[7].current = INFINITY; }, "sample 8: current reading is infinite"},
+      {[](RunData* r) {
+         for (model::Sample& s : r->samples) s.speed = s.current = s.voltage = NAN;
+       },
+       "every reading is empty"},
+      {[](RunData* r) { r->samples[3].t = r->samples[2].t; }, "sample 4: time"},
+  };
+  for (const Case& c : cases) {
+    std::vector<RunData> bad = runs;
+    c.spoil(&bad[7]);
+    Result<FitSummary> f = FitRuns(bad, {});
+    REQUIRE_FALSE(f.ok());
+    CHECK(f.status().code() == Code::kInvalidArgument);
+    const std::string& m = f.status().message();
+    CHECK_MESSAGE(m.find("run " + std::to_string(bad[7].id)) != std::string::npos, m);
+    CHECK_MESSAGE(m.find(c.says) != std::string::npos, m);
+    CHECK(m.find('\n') == std::string::npos);
+  }
 }
