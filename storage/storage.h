@@ -43,6 +43,9 @@ struct OpenOptions {
   /// PRAGMA synchronous: false = NORMAL (WAL: durable at checkpoint, never corrupt),
   /// true = FULL (each commit survives power loss).
   bool synchronous_full = false;
+  /// 0 = no limit; else the file may grow to about this many bytes (PRAGMA max_page_count,
+  /// this connection only) and writes beyond fail like a full disk (IOError, "... full").
+  std::int64_t max_size_bytes = 0;
 };
 
 enum class RunStatus { kRecording, kComplete, kInterrupted };
