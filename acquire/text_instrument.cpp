@@ -1,8 +1,10 @@
 #include "acquire/text_instrument.h"
 
+#include <cmath>
 #include <cstdlib>
 
 #include "acquire/toml_util.h"
+#include "base/text.h"
 
 namespace rb::acquire {
 namespace {
@@ -11,7 +13,8 @@ Result<TextInstrumentMap> FromDoc(const TomlDoc& doc) {
   TextInstrumentMap m;
   const toml::table& root = doc.root();
   RB_RETURN_IF_ERROR(CheckKeys(doc, root, {"name", "separators", "latency_s", "match", "field"}, ""));
-  if (auto v = GetString(doc, root, "name"); !v.ok()) return v.status(); else if (*v) m.name = **v;
+  // The name appears in messages and run metadata: keep it printable and on one line.
+  if (auto v = GetString(doc, root, "name"); !v.ok()) return v.status(); else if (*v) m.name = Printable(**v, 80);
   if (auto v = GetString(doc, root, "separators"); !v.ok()) return v.status(); else if (*v) m.separators = **v;
   if (auto v = GetNumber(doc, root, "latency_s"); !v.ok()) return v.status(); else if (*v) m.latency_s = **v;
   Result<const toml::table*> match = GetTable(doc, root, "match");
@@ -52,11 +55,11 @@ Result<TextInstrumentMap> FromDoc(const TomlDoc& doc) {
     } else if (**q == "voltage") {
       f.quantity = units::Quantity::kVoltage;
     } else {
-      return Status::InvalidArgument(where + ": quantity '" + **q + "'; expected speed, current or voltage");
+      return Status::InvalidArgument(where + ": quantity '" + Printable(**q) + "'; expected speed, current or voltage");
     }
     std::optional<units::UnitDef> def = units::FindUnit(f.quantity, **u);
     if (!def) {
-      return Status::InvalidArgument(where + ": unit '" + **u + "' is not a " + units::QuantityName(f.quantity) +
+      return Status::InvalidArgument(where + ": unit '" + Printable(**u) + "' is not a " + units::QuantityName(f.quantity) +
                                      " unit; expected one of " + units::AcceptedUnits(f.quantity));
     }
     f.scale = def->scale;
@@ -106,7 +109,7 @@ Result<std::optional<model::Sample>> ParseTextLine(const TextInstrumentMap& map,
   s.t = t - map.latency_s;
   for (const TextField& tf : map.fields) {
     if (static_cast<int>(f.size()) < tf.index) {
-      return Status::InvalidArgument(map.name + ": line '" + std::string(line) + "' has " + std::to_string(f.size()) +
+      return Status::InvalidArgument(map.name + ": line '" + Printable(line) + "' has " + std::to_string(f.size()) +
                                      " fields; expected field " + std::to_string(tf.index));
     }
     std::string cell(f[static_cast<std::size_t>(tf.index - 1)]);
@@ -115,8 +118,8 @@ Result<std::optional<model::Sample>> ParseTextLine(const TextInstrumentMap& map,
     }
     char* end = nullptr;
     const double v = std::strtod(cell.c_str(), &end);
-    if (cell.empty() || end != cell.c_str() + cell.size()) {
-      return Status::InvalidArgument(map.name + ": field " + std::to_string(tf.index) + " '" + cell +
+    if (cell.empty() || end != cell.c_str() + cell.size() || !std::isfinite(v)) {
+      return Status::InvalidArgument(map.name + ": field " + std::to_string(tf.index) + " '" + Printable(cell) +
                                      "' is not a number; expected a " + units::QuantityName(tf.quantity) +
                                      " in " + tf.unit);
     }

@@ -1,5 +1,7 @@
 #include "acquire/toml_util.h"
 
+#include "base/text.h"
+
 namespace rb::acquire {
 
 Result<TomlDoc> TomlDoc::ParseText(const std::string& text, const std::string& name) {
@@ -9,7 +11,7 @@ Result<TomlDoc> TomlDoc::ParseText(const std::string& text, const std::string& n
     d.table_ = toml::parse(text, name);
   } catch (const toml::parse_error& e) {
     return Status::InvalidArgument(name + ":" + std::to_string(e.source().begin.line) + ": " +
-                                   std::string(e.description()) + "; expected TOML");
+                                   Printable(e.description(), 200) + "; expected TOML");
   }
   return d;
 }
@@ -20,7 +22,7 @@ Result<TomlDoc> TomlDoc::Parse(const std::string& path) {
   try {
     d.table_ = toml::parse_file(path);
   } catch (const toml::parse_error& e) {
-    const std::string desc(e.description());
+    const std::string desc = Printable(e.description(), 200);
     if (e.source().begin.line == 0 || desc.find("File could not be opened") != std::string::npos) {
       return Status::NotFound(path + ": cannot read (" + desc + ")");
     }
@@ -44,7 +46,7 @@ Status CheckKeys(const TomlDoc& doc, const toml::table& t, const std::set<std::s
     if (allowed.count(key)) continue;
     std::string list;
     for (const std::string& a : allowed) list += (list.empty() ? "" : ", ") + a;
-    return Status::InvalidArgument(Where(doc, t, key) + ": unknown key '" + key + "' in " +
+    return Status::InvalidArgument(Where(doc, t, key) + ": unknown key '" + Printable(key) + "' in " +
                                    (table_name.empty() ? std::string("the top level") : "[" + table_name + "]") +
                                    "; expected one of " + list);
   }
@@ -70,7 +72,8 @@ Result<const toml::table*> GetTable(const TomlDoc& doc, const toml::table& t, co
   const toml::node* n = t.get(key);
   if (!n) return static_cast<const toml::table*>(nullptr);
   if (const toml::table* tt = n->as_table()) return tt;
-  return Status::InvalidArgument(Where(doc, t, key) + ": '" + key + "' is not a table; expected [" + key + "]");
+  return Status::InvalidArgument(Where(doc, t, key) + ": '" + Printable(key) + "' is not a table; expected [" +
+                                 Printable(key) + "]");
 }
 
 }  // namespace rb::acquire

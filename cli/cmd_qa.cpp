@@ -8,6 +8,9 @@
 #include "cli/context.h"
 #include "cli/output.h"
 #include "qa/qa.h"
+#if ROTORBENCH_QA_HTML
+#include "qa/html.h"
+#endif
 
 namespace rb::cli {
 namespace {
@@ -122,8 +125,14 @@ void AddBatchCommand(CLI::App* qa, Context& ctx) {
       "batch", "Check every motor of a batch: one row per motor, statistics, batch verdict");
   c->add_option("--spec", o->spec, "Spec file (TOML; see docs/qa-spec.md)")->required();
   c->add_option("--batch", o->batch, "Batch name (as given to motor add --batch)")->required();
+#if ROTORBENCH_QA_HTML
+  c->add_option("--format", o->format,
+                "table (default), csv, json, or html (a page with a histogram per quantity)")
+      ->check(CLI::IsMember({"table", "csv", "json", "html"}));
+#else
   c->add_option("--format", o->format, "table (default), csv or json")
       ->check(CLI::IsMember({"table", "csv", "json"}));
+#endif
   c->add_option("--outlier-alpha", o->alpha, "Significance of the outlier test (default 0.05)")
       ->check(CLI::Range(1e-6, 0.5));
   AddRuleOptions(c, &o->rule);
@@ -142,6 +151,10 @@ void AddBatchCommand(CLI::App* qa, Context& ctx) {
       if (!b.ok()) return b.status();
       if (o->format == "json") {
         PrintJson(qa::BatchJson(*b));
+#if ROTORBENCH_QA_HTML
+      } else if (o->format == "html") {
+        std::fputs(qa::BatchHtml(*b).c_str(), stdout);
+#endif
       } else if (o->format == "csv") {
         std::fputs(qa::FormatBatchCsv(*b).c_str(), stdout);
       } else {
@@ -156,7 +169,7 @@ void AddPlanCommand(CLI::App* qa, Context& ctx) {
   struct Opts {
     std::int64_t lot = 0;
     double aql = 0, ltpd = 0, alpha = 0.05, beta = 0.10;
-    bool json = false;
+    bool json = false, html = false;
   };
   auto o = std::make_shared<Opts>();
   CLI::App* c = qa->add_subcommand(
@@ -167,6 +180,9 @@ void AddPlanCommand(CLI::App* qa, Context& ctx) {
   c->add_option("--alpha", o->alpha, "Producer's risk at the AQL (default 0.05)");
   c->add_option("--beta", o->beta, "Consumer's risk at the LTPD (default 0.10)");
   c->add_flag("--json", o->json, "Machine-readable output");
+#if ROTORBENCH_QA_HTML
+  c->add_flag("--html", o->html, "An HTML page with the OC curve plotted");
+#endif
   c->callback([&ctx, o] {
     ctx.action = [o]() -> Status {
       qa::PlanOptions p;
@@ -179,6 +195,10 @@ void AddPlanCommand(CLI::App* qa, Context& ctx) {
       if (!plan.ok()) return plan.status();
       if (o->json) {
         PrintJson(qa::PlanJson(*plan));
+#if ROTORBENCH_QA_HTML
+      } else if (o->html) {
+        std::fputs(qa::PlanHtml(*plan).c_str(), stdout);
+#endif
       } else {
         std::fputs(qa::FormatPlan(*plan).c_str(), stdout);
       }

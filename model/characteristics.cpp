@@ -109,7 +109,7 @@ CharacteristicsU ComputeCharacteristicsU(const MotorEstimate& e, double v) {
   Eigen::Matrix<double, kNumCharacteristics, kNumParams> jac =
       Eigen::Matrix<double, kNumCharacteristics, kNumParams>::Zero();
   for (int j = 0; j < kNumParams; ++j) {
-    if (e.cov(j, j) <= 0) continue;
+    if (!Estimated(e, j)) continue;
     const double h = ParamStep(e.value, j);
     MotorParams up = e.value, dn = e.value;
     Set(&up, j, Get(e.value, j) + h);
@@ -119,7 +119,7 @@ CharacteristicsU ComputeCharacteristicsU(const MotorEstimate& e, double v) {
                  (2 * h);
   }
   const Eigen::Matrix<double, kNumCharacteristics, kNumCharacteristics> cc =
-      jac * e.cov * jac.transpose();
+      jac * UsableCovariance(e) * jac.transpose();
   for (int i = 0; i < kNumCharacteristics; ++i) out.u(i) = std::sqrt(std::max(0.0, cc(i, i)));
   return out;
 }

@@ -123,12 +123,30 @@ Eigen::VectorXd PropagateU(const MotorEstimate& e, F&& f);
 // ---- implementation of the templates
 double ParamStep(const MotorParams& p, int index);
 
+/// Whether parameter j is estimated: a positive, finite variance and a finite value. A
+/// parameter the data could not determine (NaN value or variance) is left out.
+inline bool Estimated(const MotorEstimate& e, int j) {
+  return e.cov(j, j) > 0 && std::isfinite(e.cov(j, j)) && std::isfinite(Get(e.value, j));
+}
+
+/// The covariance restricted to estimated parameters (other rows and columns zero), so that
+/// a NaN entry of an undetermined parameter cannot spread into every result.
+inline ParamCovariance UsableCovariance(const MotorEstimate& e) {
+  ParamCovariance c = ParamCovariance::Zero();
+  for (int i = 0; i < kNumParams; ++i) {
+    for (int k = 0; k < kNumParams; ++k) {
+      if (Estimated(e, i) && Estimated(e, k) && std::isfinite(e.cov(i, k))) c(i, k) = e.cov(i, k);
+    }
+  }
+  return c;
+}
+
 template <typename F>
 Eigen::MatrixXd ParamJacobian(const MotorEstimate& e, F&& f) {
   const Eigen::VectorXd f0 = f(e.value);
   Eigen::MatrixXd jac = Eigen::MatrixXd::Zero(f0.size(), kNumParams);
   for (int j = 0; j < kNumParams; ++j) {
-    if (e.cov(j, j) <= 0) continue;
+    if (!Estimated(e, j)) continue;
     const double h = ParamStep(e.value, j);
     MotorParams up = e.value, dn = e.value;
     Set(&up, j, Get(e.value, j) + h);
@@ -141,7 +159,7 @@ Eigen::MatrixXd ParamJacobian(const MotorEstimate& e, F&& f) {
 template <typename F>
 Eigen::VectorXd PropagateU(const MotorEstimate& e, F&& f) {
   const Eigen::MatrixXd jac = ParamJacobian(e, f);
-  const Eigen::MatrixXd cc = jac * e.cov * jac.transpose();
+  const Eigen::MatrixXd cc = jac * UsableCovariance(e) * jac.transpose();
   Eigen::VectorXd u(cc.rows());
   for (Eigen::Index i = 0; i < cc.rows(); ++i) u(i) = std::sqrt(std::max(0.0, cc(i, i)));
   return u;
@@ -151,14 +169,14 @@ template <typename F>
 double DeltaMethodU(const MotorEstimate& e, F&& f) {
   Eigen::Matrix<double, kNumParams, 1> g = Eigen::Matrix<double, kNumParams, 1>::Zero();
   for (int j = 0; j < kNumParams; ++j) {
-    if (e.cov(j, j) <= 0) continue;
+    if (!Estimated(e, j)) continue;
     const double h = ParamStep(e.value, j);
     MotorParams up = e.value, dn = e.value;
     Set(&up, j, Get(e.value, j) + h);
     Set(&dn, j, Get(e.value, j) - h);
     g(j) = (f(up) - f(dn)) / (2 * h);
   }
-  const double var = g.dot(e.cov * g);
+  const double var = g.dot(UsableCovariance(e) * g);
   return var > 0 ? std::sqrt(var) : 0.0;
 }
 

@@ -1,6 +1,8 @@
 // Spec files: TOML (toml++) → Spec, with one-line errors naming the line.
 #include "qa/spec.h"
 
+#include "base/text.h"
+
 #include <fmt/format.h>
 #include <toml++/toml.h>
 
@@ -49,7 +51,9 @@ class Parser {
   explicit Parser(const std::string& source) : source_(source) {}
 
   Status Error(const toml::source_region& where, const std::string& message) const {
-    return Status::InvalidArgument(fmt::format("{}:{}: {}", source_, where.begin.line, message));
+    // Messages quote keys and values from the file: keep them on one line.
+    return Status::InvalidArgument(
+        fmt::format("{}:{}: {}", source_, where.begin.line, Printable(message, 300)));
   }
 
   Result<double> Number(const toml::node& node, std::string_view what) const {
@@ -294,7 +298,7 @@ Result<Spec> ParseSpec(std::string_view text, const std::string& source) {
     root = toml::parse(text, source);
   } catch (const toml::parse_error& e) {
     return Status::InvalidArgument(
-        fmt::format("{}:{}: {}", source, e.source().begin.line, e.description()));
+        fmt::format("{}:{}: {}", source, e.source().begin.line, Printable(e.description(), 200)));
   }
   return Parser(source).Parse(root);
 }

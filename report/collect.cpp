@@ -89,6 +89,9 @@ Result<ReportInput> CollectReportInput(storage::Database& db, const CollectOptio
       Result<std::vector<model::Sample>> s = CalibratedSamples(db, rec.id);
       if (!s.ok()) return s.status().WithPrefix(fmt::format("run {}", rec.id));
       rr.samples = std::move(*s);
+      Result<std::vector<storage::RunEvent>> ev = db.ListEvents(rec.id);
+      if (!ev.ok()) return ev.status().WithPrefix(fmt::format("run {}", rec.id));
+      rr.events = std::move(*ev);
       fit::RunData data{rec.id, rec.kind, rec.nominal_voltage, rec.ambient_C, rr.samples};
       if (predict) {
         Result<fit::RunPrediction> p = predict(primary, data);

@@ -47,6 +47,8 @@ ul.diag { list-style: none; padding: 0; }
   h2 { break-after: avoid; page-break-after: avoid; }
   h3 { break-after: avoid; page-break-after: avoid; }
   table, .cards, .caution, .warning { break-inside: avoid; page-break-inside: avoid; }
+  table { font-size: 8.5pt; }
+  th, td { padding-right: 6px; }
   section.runs { break-before: page; page-break-before: always; }
   .grid2 { grid-template-columns: 1fr 1fr; }
   svg.plot { max-width: 100%; }

@@ -106,27 +106,55 @@ std::string Cautions(const ReportFit& f, double v) {
          "for first tests.</li></ul></aside>";
 }
 
-/// Distinct values of each top-level scalar key of the runs' metadata (rig, plan, …).
-std::map<std::string, std::set<std::string>> MetaValues(const std::vector<ReportRun>& runs) {
-  std::map<std::string, std::set<std::string>> out;
+/// How the runs were measured, from their metadata (as the recorder writes it): plan, rig,
+/// supply, host limits, speed measurement. Distinct values per line, in a fixed order.
+std::vector<std::pair<std::string, std::set<std::string>>> HowMeasured(
+    const std::vector<ReportRun>& runs) {
+  using nlohmann::json;
+  std::vector<std::pair<std::string, std::set<std::string>>> out = {
+      {"plan", {}}, {"rig", {}}, {"supply", {}}, {"host limits", {}}, {"speed from", {}}};
+  auto num = [](const json& j, const char* k) {
+    return j.contains(k) && j[k].is_number() ? j[k].get<double>() : NAN;
+  };
   for (const ReportRun& r : runs) {
-    const nlohmann::json j = nlohmann::json::parse(r.record.meta_json, nullptr, false);
+    const json j = json::parse(r.record.meta_json, nullptr, false);
     if (!j.is_object()) continue;
-    for (const auto& [k, v] : j.items()) {
-      std::string s;
-      if (v.is_string()) {
-        s = v.get<std::string>();
-      } else if (v.is_primitive() && !v.is_null()) {
-        s = v.dump();
-      } else if (v.is_object() && v.contains("name") && v["name"].is_string()) {
-        s = v["name"].get<std::string>();
-      } else {
-        continue;
+    if (j.contains("plan") && j["plan"].is_string()) out[0].second.insert(j["plan"]);
+    if (j.contains("rig") && j["rig"].is_string()) out[1].second.insert(j["rig"]);
+    if (j.contains("rig") && j["rig"].is_object()) {
+      const json& rig = j["rig"];
+      std::string d = rig.value("instrument", rig.value("name", std::string("rig")));
+      if (rig.contains("firmware") && rig["firmware"].is_string()) {
+        d += ", firmware " + rig["firmware"].get<std::string>();
       }
-      if (s.size() > 60) s = s.substr(0, 57) + "…";
-      out[k].insert(s);
+      if (rig.value("simulated", false)) d += ", simulated";
+      if (std::isfinite(num(rig, "adc_rate_hz"))) {
+        d += ", current and voltage at " + FormatSetting(num(rig, "adc_rate_hz")) + " Hz";
+      }
+      if (std::isfinite(num(rig, "marks_per_rev"))) {
+        d += ", " + FormatSetting(num(rig, "marks_per_rev")) + " tach marks/rev";
+      }
+      out[1].second.insert(d);
+    }
+    if (std::isfinite(num(j, "supply_V"))) {
+      out[2].second.insert(FormatSetting(num(j, "supply_V")) + " V at full output");
+    }
+    if (j.contains("host_limits") && j["host_limits"].is_object()) {
+      const json& l = j["host_limits"];
+      std::string d;
+      if (std::isfinite(num(l, "current_A"))) d += FormatSetting(num(l, "current_A")) + " A";
+      if (std::isfinite(num(l, "max_locked_s"))) {
+        d += (d.empty() ? "" : ", ") + FormatSetting(num(l, "max_locked_s")) +
+             " s per locked-rotor pulse";
+      }
+      if (!d.empty()) out[3].second.insert(d);
+    }
+    if (j.contains("tach") && j["tach"].is_object() && j["tach"].contains("speed_from") &&
+        j["tach"]["speed_from"].is_string()) {
+      out[4].second.insert(j["tach"]["speed_from"].get<std::string>());
     }
   }
+  std::erase_if(out, [](const auto& kv) { return kv.second.empty(); });
   return out;
 }
 
@@ -155,29 +183,36 @@ std::string MeasuredSection(const ReportInput& in) {
   h += "<p>" + std::to_string(in.runs.size()) + " runs (" + E(kind_text) + "), recorded " +
        E(first.substr(0, 19)) + " to " + E(last.substr(0, 19)) + " UTC, from " + E(src_text) +
        ".</p>";
-  const auto meta = MetaValues(in.runs);
-  if (!meta.empty()) {
+  const auto how = HowMeasured(in.runs);
+  if (!how.empty()) {
     h += "<p class=\"small\">";
-    int shown = 0;
-    for (const auto& [k, vals] : meta) {
-      if (++shown > 8) break;
+    for (const auto& [k, vals] : how) {
       std::string v;
-      for (const auto& x : vals) v += (v.empty() ? "" : ", ") + x;
-      h += "<b>" + E(k) + "</b>: " + E(v) + "&nbsp;&nbsp; ";
+      for (const auto& x : vals) v += (v.empty() ? "" : "; ") + x;
+      h += "<b>" + E(k) + "</b>: " + E(v) + "<br>";
     }
     h += "</p>";
   }
-  HtmlTable t({"run", "kind", "status", "started (UTC)", "duration [s]", "samples", "supply [V]",
-               "ambient [°C]", "source", "in fit"},
-              {0, 4, 5, 6, 7});
+  // The source column only when the runs came from more than one place (else it is above).
+  const bool one_source = sources.size() == 1;
+  std::vector<std::string> head = {"run", "kind", "status", "started (UTC)", "duration [s]",
+                                   "samples", "supply [V]", "ambient [°C]"};
+  if (!one_source) head.push_back("source");
+  head.push_back("in fit");
+  HtmlTable t(head, {0, 4, 5, 6, 7});
   for (const ReportRun& r : in.runs) {
     const auto& rec = r.record;
-    t.Row({std::to_string(rec.id), E(model::RunKindName(rec.kind)),
-           E(storage::RunStatusName(rec.status)), E(rec.started_utc.substr(0, 19)),
-           FormatValue(rec.duration_s, 3), std::to_string(rec.sample_count),
-           rec.nominal_voltage ? FormatSetting(*rec.nominal_voltage) : "–",
-           rec.ambient_C ? FormatValue(*rec.ambient_C, 3) : "–", E(rec.source),
-           r.in_primary_fit ? "yes" : "no"});
+    std::string started = rec.started_utc.substr(0, 19);
+    if (started.size() > 10 && started[10] == 'T') started[10] = ' ';
+    std::vector<std::string> row = {std::to_string(rec.id), E(model::RunKindName(rec.kind)),
+                                    E(storage::RunStatusName(rec.status)), E(started),
+                                    FormatValue(rec.duration_s, 3),
+                                    std::to_string(rec.sample_count),
+                                    rec.nominal_voltage ? FormatSetting(*rec.nominal_voltage) : "–",
+                                    rec.ambient_C ? FormatValue(*rec.ambient_C, 3) : "–"};
+    if (!one_source) row.push_back(E(rec.source));
+    row.push_back(r.in_primary_fit ? "yes" : "no");
+    t.Row(row);
   }
   return h + t.Render() + "</section>";
 }
@@ -193,7 +228,9 @@ std::string ConstantsSection(const ReportFit& f) {
   for (const ParamRow& r : ParamRows()) {
     const fit::ParamResult& p = s.params[static_cast<size_t>(r.index)];
     const Shown v = ToDisplay(r.unit, p.value, ParamU(p));
-    const std::string note = p.fitted ? "" : "held fixed, not estimated";
+    const std::string note = !std::isfinite(p.value) ? "not determined by these runs"
+                             : p.fitted               ? ""
+                                                      : "held fixed, not estimated";
     t.Row({E(r.name), E(r.symbol), FormatWithU(v.value, v.u), E(r.unit.unit),
            FormatRelative(v.value, v.u), note});
   }

@@ -39,6 +39,7 @@ struct ReportFit {
 struct ReportRun {
   storage::Run record;
   std::vector<model::Sample> samples;            ///< calibrated readings, SI
+  std::vector<storage::RunEvent> events;         ///< output on/off, limit trips, gaps
   std::optional<fit::RunPrediction> prediction;  ///< the primary fit's model at those times
   std::string no_prediction_reason;              ///< why there is none, in words
   bool in_primary_fit = false;                   ///< the primary fit used this run

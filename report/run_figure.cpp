@@ -150,6 +150,21 @@ Figure RunFigure(const ReportRun& run, const fit::RunFit* fit_run, const std::st
     fig.panels.push_back(std::move(strip));
     height += 62;
   }
+  // What the rig did (output switched, a limit tripped, a gap in the link), across the
+  // measured panels; labelled once, at the top.
+  bool first = true;
+  for (Panel& p : fig.panels) {
+    if (p.weight < 2) continue;  // not on residual strips
+    for (const storage::RunEvent& e : run.events) {
+      const bool trip = e.kind == "limit_trip";
+      if (!(e.kind == "output_on" || e.kind == "output_off" || trip || e.kind == "gap")) continue;
+      std::string label = e.kind;
+      std::replace(label.begin(), label.end(), '_', ' ');
+      p.lines.push_back({true, e.t, first ? label : "", trip ? kColourLimit : kColourGuide,
+                         true, false});
+    }
+    first = false;
+  }
   fig.height = height;
   return fig;
 }

@@ -396,3 +396,25 @@ TEST_CASE("edge cases: a voltage too low to overcome friction, and a loss-free m
   CHECK(PointAtTorque(q, 6.0, 1e-9).efficiency ==
         doctest::Approx((6.0 - q.Vb) / 6.0).epsilon(1e-6));
 }
+
+TEST_CASE("a parameter the data could not determine (NaN value and covariance row) leaves the "
+          "other figures' uncertainties intact") {
+  MotorEstimate e;
+  e.value = DemoMotor();
+  e.cov(kR, kR) = std::pow(0.02 * e.value.R, 2);
+  e.cov(kKe, kKe) = std::pow(0.01 * e.value.Ke, 2);
+  MotorEstimate bad = e;
+  bad.value.J = NAN;
+  for (int i = 0; i < kNumParams; ++i) bad.cov(kJ, i) = bad.cov(i, kJ) = NAN;
+  const CharacteristicsU good = ComputeCharacteristicsU(e, 6.0);
+  const CharacteristicsU cu = ComputeCharacteristicsU(bad, 6.0);
+  for (int i = 0; i < kNumCharacteristics; ++i) {
+    CAPTURE(i);
+    if (i == kMechTimeConstant) {
+      CHECK(std::isnan(cu.nominal.mech_time_constant));  // needs J
+      continue;
+    }
+    CHECK(cu.u(i) == doctest::Approx(good.u(i)));
+  }
+  CHECK(std::isfinite(DeltaMethodU(bad, [](const MotorParams& p) { return p.R * p.Ke; })));
+}

@@ -107,6 +107,11 @@ inline report::ReportInput SimulatedReportInput(const std::vector<RunPlan>& plan
     rr.record.duration_s = sim->samples.empty() ? 0 : sim->samples.back().t;
     rr.samples = sim->samples;
     rr.prediction = TruthAsPrediction(*sim);
+    if (rp.kind != model::RunKind::kSteady) {
+      rr.events.push_back({id, sim->step_time_s,
+                           rp.kind == model::RunKind::kCoastDown ? "output_off" : "output_on",
+                           ""});
+    }
     rr.in_primary_fit = true;
     fit::RunFit fr;
     fr.run_id = id;

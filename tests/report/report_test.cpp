@@ -94,6 +94,13 @@ TEST_CASE(
   // The strip marks ±2σ of the noise the fit reported for the channel (0.004 A).
   REQUIRE(fig.panels[3].lines.size() == 2);
   CHECK(fig.panels[3].lines[0].at == doctest::Approx(0.008));
+  // The switching event is marked where it happened, on the measured panels only.
+  REQUIRE(fig.panels[0].lines.size() == 1);
+  CHECK(fig.panels[0].lines[0].vertical);
+  CHECK(fig.panels[0].lines[0].at == doctest::Approx(0.05));  // RunScript::pre_s
+  CHECK(fig.panels[0].lines[0].label == "output on");
+  CHECK(fig.panels[2].lines.size() == 1);
+  CHECK(fig.panels[2].lines[0].label.empty());
   // A locked rotor reads zero speed throughout: no speed panel.
   const Figure locked = RunFigure(in.runs[0], nullptr, "run-l");
   for (const Panel& p : locked.panels) CHECK(p.y.title.find("speed") == std::string::npos);
@@ -150,4 +157,23 @@ TEST_CASE(
   CHECK(bad.status().message().find('\n') == std::string::npos);
   in.voltage = 0;
   CHECK_FALSE(BuildReport(in).ok());
+}
+
+TEST_CASE(
+    "a constant the runs could not determine (NaN, as the fitter reports it) is said so "
+    "in words; nothing prints as nan") {
+  ReportInput in = SimulatedReportInput(ShortPlan(), false);
+  fit::FitSummary& s = in.fits[0].summary;
+  s.params[model::kJ].value = NAN;
+  s.params[model::kJ].fitted = false;
+  for (int i = 0; i < model::kNumParams; ++i)
+    s.covariance(model::kJ, i) = s.covariance(i, model::kJ) = NAN;
+  Result<ReportSummary> rep = BuildReport(in);
+  REQUIRE(rep.ok());
+  CHECK(Has(rep->html, "not determined by these runs"));
+  CHECK_FALSE(Has(rep->html, "nan"));
+  CHECK_FALSE(Has(rep->html, "NaN"));
+  // The other figures keep their uncertainty (the stall torque does not depend on J).
+  const model::CharacteristicsU cu = model::ComputeCharacteristicsU(s.Estimate(), in.voltage);
+  CHECK(cu.Get(model::kStallTorque).u > 0);
 }
