@@ -16,7 +16,7 @@
 //   database = "bench.db"          # optional; else --db
 //   socket = "/run/user/1000/rotorbench.sock"   # optional
 //   motor = "M-17"                 # optional: the motor on the bench at start
-//   commit_interval_s = 0.15       # optional; at most 0.25 - the 0.1 s reorder window
+//   commit_interval_s = 0.1        # optional; at most 0.25 - the 0.1 s reorder window
 //   max_database_mb = 2000         # optional: stop logging (cleanly) when the file reaches this
 //   [[port]]
 //   name = "rig"                   # optional
@@ -56,7 +56,7 @@ struct DaemonConfig {
   std::string motor;     ///< mounted at start (empty: none)
   std::vector<DaemonPortConfig> ports;
   CutterOptions cutter;
-  double commit_interval_s = 0.15;  ///< merge_delay_s + this ≤ kMaxSampleWaitS (promise 1)
+  double commit_interval_s = 0.1;   ///< merge_delay_s + this ≤ kMaxSampleWaitS (promise 1); 50 ms left for the commit
   double merge_delay_s = 0.1;       ///< reorder window across ports
   double max_database_mb = 0;       ///< 0 = no limit; else the file stops growing here
   double reconnect_max_s = 4.0;    ///< back-off ceiling

@@ -192,6 +192,15 @@ Status Database::Commit() {
   return s;
 }
 
+Status Database::BeginRead() {
+  if (impl_->in_txn) return Status::FailedPrecondition("transaction already open");
+  RB_RETURN_IF_ERROR(impl_->Exec("BEGIN DEFERRED"));
+  impl_->in_txn = true;
+  return Status::Ok();
+}
+
+Status Database::EndRead() { return Commit(); }
+
 Status Database::Rollback() {
   if (!impl_->in_txn) return Status::Ok();
   impl_->in_txn = false;

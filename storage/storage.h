@@ -148,6 +148,10 @@ class Database {
   Status Begin();
   Status Commit();
   Status Rollback();
+  /// A read transaction (BEGIN DEFERRED ... COMMIT): every read until EndRead sees one WAL
+  /// snapshot, so a run record and its samples agree while a logger writes.
+  Status BeginRead();
+  Status EndRead();
 
   // ---- Motors
   Result<std::int64_t> AddMotor(const std::string& label, const std::string& batch,

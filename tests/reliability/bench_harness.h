@@ -154,6 +154,7 @@ struct Alignment {
   std::size_t wrong_values = 0;    ///< value differs from the rig's counts × scale
   double scale_current = NAN;      ///< A per count, as the stored values imply
   std::int64_t first_us = -1, last_us = -1;  ///< device times of the first and last sample
+  std::string first_wrong;         ///< the first wrong value, described (for the failure message)
 };
 
 /// Aligns run `run`'s ADC samples with the emission log: the run's metadata gives the rig's
@@ -217,6 +218,13 @@ inline Alignment AlignRun(storage::Database& db, const storage::Run& run, const 
       };
       const bool ok_i = same_scale(s.current, c.current, &a.scale_current);
       const bool ok_v = std::isnan(s.voltage) || same_scale(s.voltage, c.voltage, &scale_v);
+      if (!(ok_i && ok_v) && a.first_wrong.empty()) {
+        a.first_wrong = "sample " + std::to_string(a.adc) + " at t " + std::to_string(s.t) + " s (device " +
+                        std::to_string(us[k]) + " µs, record " + std::to_string(k) + "): I " +
+                        std::to_string(s.current) + ", V " + std::to_string(s.voltage) + " vs counts " +
+                        std::to_string(c.current) + ", " + std::to_string(c.voltage) + " (scales " +
+                        std::to_string(a.scale_current) + ", " + std::to_string(scale_v) + ")";
+      }
       a.wrong_values += !(ok_i && ok_v);
     }
   }

@@ -86,7 +86,7 @@ std::size_t CheckAllRuns(RigBench& b, bool allow_skips) {
     const Alignment a = AlignRun(db, r, log, FirstGap(db, r.id));
     CHECK(a.adc > 0);
     CHECK(a.unmatched == 0);
-    CHECK(a.wrong_values == 0);
+    CHECK_MESSAGE(a.wrong_values == 0, a.first_wrong);
     if (!allow_skips) CHECK(a.skipped == 0);
   }
   return runs->size();
@@ -132,7 +132,7 @@ TEST_CASE("rig unplugged mid-run: gap recorded, every sample before it kept, log
       const Alignment a = AlignRun(db, r, log, e.t);
       CHECK(a.adc > 0);
       CHECK(a.unmatched == 0);
-      CHECK(a.wrong_values == 0);
+      CHECK_MESSAGE(a.wrong_values == 0, a.first_wrong);
       CHECK(a.skipped == 0);
       const double unplug_us = 2.0e6 + static_cast<double>(log.clock_start_us);
       CHECK(static_cast<double>(a.last_us) <= unplug_us + 20e3);  // a 10 ms step of the rig, rounded up
