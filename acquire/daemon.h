@@ -16,7 +16,7 @@
 //   database = "bench.db"          # optional; else --db
 //   socket = "/run/user/1000/rotorbench.sock"   # optional
 //   motor = "M-17"                 # optional: the motor on the bench at start
-//   commit_interval_s = 0.1        # optional; at most 0.25 - the 0.1 s reorder window
+//   commit_interval_s = 0.1        # optional; at most 0.15 - the 0.1 s reorder window
 //   max_database_mb = 2000         # optional: stop logging (cleanly) when the file reaches this
 //   [[port]]
 //   name = "rig"                   # optional
