@@ -10,6 +10,7 @@
 #include <algorithm>
 #include <atomic>
 #include <chrono>
+#include <cerrno>
 #include <cmath>
 #include <cstring>
 #include <deque>
@@ -50,6 +51,7 @@ struct Item {
   bool on = false;
   double nominal_v = NAN;  // kOutput: supply × level
   std::string text;
+  std::int64_t dev_us = -1;  // kSample from a rig's ADC: its device time (µs, unwrapped)
 };
 
 /// What the reader threads and the main thread share.
@@ -192,7 +194,7 @@ class PortReader {
         for (const model::Sample& z : tach_out) batch.push_back({Item::kSample, index_, z.t, z, false, NAN, ""});
         tach_out.clear();
         model::Sample smp{.t = t, .current = a.current, .voltage = a.voltage};
-        batch.push_back({Item::kSample, index_, t, smp, false, NAN, ""});
+        batch.push_back({Item::kSample, index_, t, smp, false, NAN, "", a.t_us});
         last_t = t;
         ++n_adc;
       }
@@ -317,8 +319,18 @@ class Daemon {
   RunSink MakeSink();
   double Now() const { return std::chrono::duration<double>(Clock::now() - epoch_).count(); }
   Result<std::int64_t> MotorId();
+  std::optional<std::int64_t> DeviceUsAt(std::size_t port, double t) const;
   void Process(bool all);
-  void HandleClient(int fd);
+  /// Control socket: a client is accepted (peer credentials checked) and served without
+  /// blocking the loop, so requests never delay a commit.
+  void Accept(int lfd);
+  void ServeClients();
+  struct Client {
+    int fd;
+    std::string req;
+    Clock::time_point deadline;
+  };
+  std::vector<Client> clients_;
   std::string Answer(const std::string& request);
   void Say(const std::string& s) {
     if (say_) say_(s);
@@ -335,6 +347,9 @@ class Daemon {
   std::string motor_;
   double nominal_v_ = NAN;
   std::vector<double> gap_since_;  // per port: time its data stopped (NaN = none)
+  // Per rig port: (stream time, device µs) of its recent ADC samples, so a run's metadata
+  // can say which device time its time 0 is (traceability to the rig's own clock).
+  std::vector<std::deque<std::pair<double, std::int64_t>>> dev_times_;
   std::vector<std::string> instruments_;
   Status db_error_;
   std::string run_kind_;
@@ -347,6 +362,16 @@ Result<std::int64_t> Daemon::MotorId() {
   if (m.ok()) return m->id;
   if (!motor_.empty()) return m.status();
   return db_.AddMotor(label, "", "runs the daemon logged while no motor was mounted");
+}
+
+/// The device time of rig port `port` at stream time t, from its ADC sample nearest to t
+/// (exact to the µs near t: the clock mapping slews by at most 200 ppm).
+std::optional<std::int64_t> Daemon::DeviceUsAt(std::size_t port, double t) const {
+  if (port >= dev_times_.size() || dev_times_[port].empty()) return std::nullopt;
+  const auto& d = dev_times_[port];
+  auto it = std::lower_bound(d.begin(), d.end(), t, [](const auto& p, double x) { return p.first < x; });
+  if (it == d.end() || (it != d.begin() && t - std::prev(it)->first < it->first - t)) --it;
+  return it->second - std::llround((it->first - t) * 1e6);
 }
 
 RunSink Daemon::MakeSink() {
@@ -365,7 +390,9 @@ RunSink Daemon::MakeSink() {
     json ports = json::array();
     for (std::size_t k = 0; k < c_.ports.size(); ++k) {
       src += (src.empty() ? "daemon:" : ",") + c_.ports[k].path;
-      ports.push_back({{"name", c_.ports[k].name}, {"path", c_.ports[k].path}, {"protocol", c_.ports[k].protocol}});
+      json port = {{"name", c_.ports[k].name}, {"path", c_.ports[k].path}, {"protocol", c_.ports[k].protocol}};
+      if (std::optional<std::int64_t> d = DeviceUsAt(k, t0)) port["device_t0_us"] = *d;
+      ports.push_back(port);
     }
     nr.source = src;
     if (!std::isnan(nominal_v_) && kind != model::RunKind::kCoastDown) nr.nominal_voltage = nominal_v_;
@@ -374,7 +401,8 @@ RunSink Daemon::MakeSink() {
                  {"trigger", why},
                  {"ports", ports},
                  {"instruments", instruments_},
-                 {"time_base", "daemon clock; rig clocks mapped with a slewed offset (<= 200 ppm)"},
+                 {"time_base", "daemon clock; rig clocks mapped with a slewed offset (<= 200 ppm); "
+                               "ports[].device_t0_us: the rig's clock at run time 0"},
                  {"preroll_s", kind == model::RunKind::kSteady ? 0.0 : c_.cutter.preroll_s},
                  {"samples", "raw: instrument scales; calibration is applied when read"}};
     nr.meta_json = meta.dump();
@@ -395,8 +423,13 @@ RunSink Daemon::MakeSink() {
     const bool stopped = reason.rfind("daemon stopped", 0) == 0;
     const std::int64_t id = writer_.run_id();
     Status st = writer_.Finish(stopped ? storage::RunStatus::kInterrupted : storage::RunStatus::kComplete, reason, t);
-    if (!st.ok()) db_error_ = st;
-    Say("run " + std::to_string(id) + " closed: " + reason);
+    if (!st.ok()) {
+      if (db_error_.ok()) db_error_ = st;
+      Say("run " + std::to_string(id) + " left open (" + reason + "): " + st.message() +
+          "; it is marked interrupted at the next start");
+    } else {
+      Say("run " + std::to_string(id) + " closed: " + reason);
+    }
     run_kind_.clear();
   };
   return s;
@@ -417,7 +450,15 @@ void Daemon::Process(bool all) {
   for (; k < pending_.size() && pending_[k].t <= watermark; ++k) {
     Item& it = pending_[k];
     switch (it.kind) {
-      case Item::kSample: cutter_.Feed(it.s); break;
+      case Item::kSample:
+        if (it.dev_us >= 0) {
+          auto& d = dev_times_[static_cast<std::size_t>(it.port)];
+          d.emplace_back(it.t, it.dev_us);
+          const double keep = std::max(c_.cutter.preroll_s, c_.cutter.coast_preroll_s) + 1.0;
+          while (!d.empty() && d.front().first < it.t - keep) d.pop_front();
+        }
+        cutter_.Feed(it.s);
+        break;
       case Item::kOutput:
         if (it.on) nominal_v_ = it.nominal_v;
         cutter_.Output(it.on, it.t);
@@ -479,7 +520,7 @@ std::string Daemon::Answer(const std::string& req) {
     json run = nullptr;
     if (writer_.open()) {
       run = {{"id", writer_.run_id()}, {"kind", run_kind_}, {"samples", writer_.samples()},
-             {"duration_s", writer_.last_t()}};
+             {"committed", writer_.committed()}, {"duration_s", writer_.last_t()}};
     }
     return json{{"ok", true},
                 {"motor", motor_.empty() ? json(nullptr) : json(motor_)},
@@ -504,27 +545,50 @@ std::string Daemon::Answer(const std::string& req) {
   return json{{"ok", false}, {"error", "unknown request '" + req + "'; expected status, mount LABEL or unmount"}}.dump();
 }
 
-void Daemon::HandleClient(int fd) {
+void Daemon::Accept(int lfd) {
+  const int fd = ::accept4(lfd, nullptr, nullptr, SOCK_CLOEXEC | SOCK_NONBLOCK);
+  if (fd < 0) return;
   ucred cred{};
   socklen_t len = sizeof cred;
   if (::getsockopt(fd, SOL_SOCKET, SO_PEERCRED, &cred, &len) != 0 || (cred.uid != ::getuid() && cred.uid != 0)) {
     const std::string no = json{{"ok", false}, {"error", "permission denied: not the daemon's user"}}.dump() + "\n";
     ::send(fd, no.data(), no.size(), MSG_NOSIGNAL);
+    ::close(fd);
     return;
   }
-  std::string req;
-  char buf[512];
-  const auto until = Clock::now() + std::chrono::milliseconds(300);
-  while (req.find('\n') == std::string::npos && req.size() < 1024 && Clock::now() < until) {
-    pollfd p{fd, POLLIN, 0};
-    if (::poll(&p, 1, 50) <= 0) continue;
-    const ssize_t n = ::recv(fd, buf, sizeof buf, 0);
-    if (n <= 0) break;
-    req.append(buf, static_cast<std::size_t>(n));
+  if (clients_.size() >= 16) {  // a bounded number of requests in flight
+    ::close(fd);
+    return;
   }
-  while (!req.empty() && (req.back() == '\n' || req.back() == '\r')) req.pop_back();
-  const std::string out = Answer(req) + "\n";
-  ::send(fd, out.data(), out.size(), MSG_NOSIGNAL);
+  clients_.push_back({fd, "", Clock::now() + std::chrono::milliseconds(300)});
+}
+
+void Daemon::ServeClients() {
+  for (std::size_t k = 0; k < clients_.size();) {
+    Client& c = clients_[k];
+    bool done = Clock::now() >= c.deadline;
+    char buf[512];
+    for (;;) {
+      const ssize_t n = ::recv(c.fd, buf, sizeof buf, 0);
+      if (n > 0) {
+        c.req.append(buf, static_cast<std::size_t>(n));
+        continue;
+      }
+      if (n == 0 || (errno != EAGAIN && errno != EWOULDBLOCK && errno != EINTR)) done = true;
+      break;
+    }
+    done = done || c.req.find('\n') != std::string::npos || c.req.size() >= 1024;
+    if (!done) {
+      ++k;
+      continue;
+    }
+    std::string req = c.req.substr(0, c.req.find('\n'));
+    while (!req.empty() && req.back() == '\r') req.pop_back();
+    const std::string out = Answer(req) + "\n";
+    ::send(c.fd, out.data(), out.size(), MSG_NOSIGNAL);
+    ::close(c.fd);
+    clients_.erase(clients_.begin() + static_cast<std::ptrdiff_t>(k));
+  }
 }
 
 Status Daemon::Run(const volatile std::sig_atomic_t* stop) {
@@ -541,6 +605,7 @@ Status Daemon::Run(const volatile std::sig_atomic_t* stop) {
   if (!lfd.ok()) return lfd.status();
   Say("listening on " + sock + "; database " + db_.path());
   gap_since_.assign(c_.ports.size(), NAN);
+  dev_times_.resize(c_.ports.size());
 
   std::atomic<bool> quit{false};
   std::vector<std::unique_ptr<PortReader>> readers;
@@ -550,29 +615,45 @@ Status Daemon::Run(const volatile std::sig_atomic_t* stop) {
                                                    c_.reconnect_max_s));
     threads.emplace_back([r = readers.back().get()] { r->Run(); });
   }
-  auto next_commit = Clock::now();
+  // Commits on a fixed schedule: a sample waits at most the reorder window plus one commit
+  // interval (≤ 0.25 s, checked when the config is loaded) before its commit starts.
+  const auto interval =
+      std::chrono::duration_cast<Clock::duration>(std::chrono::duration<double>(c_.commit_interval_s));
+  auto next_commit = Clock::now() + interval;
   Status result;
+  std::vector<pollfd> fds;
   while (!*stop) {
-    pollfd p{*lfd, POLLIN, 0};
-    if (::poll(&p, 1, 50) > 0) {
-      const int cfd = ::accept4(*lfd, nullptr, nullptr, SOCK_CLOEXEC);
-      if (cfd >= 0) {
-        HandleClient(cfd);
-        ::close(cfd);
-      }
+    auto wake = std::min(next_commit, Clock::now() + std::chrono::milliseconds(50));
+    fds.assign(1, pollfd{*lfd, POLLIN, 0});
+    for (const Client& c : clients_) {
+      fds.push_back({c.fd, POLLIN, 0});
+      wake = std::min(wake, c.deadline);
     }
+    const auto wait = std::chrono::ceil<std::chrono::milliseconds>(wake - Clock::now()).count();
+    if (::poll(fds.data(), fds.size(), static_cast<int>(std::clamp<std::int64_t>(wait, 0, 50))) > 0 &&
+        (fds[0].revents & POLLIN)) {
+      Accept(*lfd);
+    }
+    ServeClients();
     Process(false);
-    if (Clock::now() >= next_commit) {
+    if (const auto now = Clock::now(); now >= next_commit) {
       Status s = writer_.Flush();
-      if (!s.ok()) Say("commit failed (will retry): " + s.message());
-      next_commit = Clock::now() + std::chrono::duration_cast<Clock::duration>(
-                                       std::chrono::duration<double>(c_.commit_interval_s));
+      if (s.code() == Code::kBusy) {
+        Say("commit delayed (will retry): " + s.message());  // another writer held the lock
+      } else if (!s.ok()) {
+        // A full disk or a failing one: stop cleanly. Every commit acknowledged so far is
+        // on disk; the open run is marked interrupted at the next start.
+        db_error_ = s.WithPrefix("commit failed; logging stopped");
+      }
+      next_commit = std::max(next_commit + interval, now);
     }
     if (!db_error_.ok()) {
       result = db_error_;
       break;
     }
   }
+  for (const Client& c : clients_) ::close(c.fd);
+  clients_.clear();
   quit = true;
   for (std::thread& t : threads) t.join();
   Process(true);  // everything the ports delivered
@@ -586,6 +667,14 @@ Status Daemon::Run(const volatile std::sig_atomic_t* stop) {
 
 }  // namespace
 
+namespace {
+std::string FormatSeconds(double s) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%g", s);
+  return buf;
+}
+}  // namespace
+
 std::string DefaultSocketPath() {
   if (const char* x = std::getenv("XDG_RUNTIME_DIR"); x && *x) return std::string(x) + "/rotorbench/daemon.sock";
   return "/tmp/rotorbench-" + std::to_string(::getuid()) + "/daemon.sock";
@@ -596,7 +685,9 @@ Result<DaemonConfig> LoadDaemonConfig(const std::string& path) {
   if (!doc.ok()) return doc.status();
   const toml::table& root = doc->root();
   RB_RETURN_IF_ERROR(CheckKeys(*doc, root,
-                               {"database", "socket", "motor", "commit_interval_s", "reconnect_max_s", "port", "cutter"}, ""));
+                               {"database", "socket", "motor", "commit_interval_s", "reconnect_max_s", "max_database_mb",
+                                "port", "cutter"},
+                               ""));
   DaemonConfig c;
   const std::filesystem::path base = std::filesystem::absolute(path).parent_path();
   auto rel = [&](const std::string& p) { return p.empty() || p[0] == '/' ? p : (base / p).string(); };
@@ -610,10 +701,19 @@ Result<DaemonConfig> LoadDaemonConfig(const std::string& path) {
   if (auto v = GetNumber(*doc, root, "commit_interval_s"); !v.ok()) {
     return v.status();
   } else if (*v) {
-    if (!(**v > 0 && **v <= 0.25)) {
-      return Status::InvalidArgument(Where(*doc, root, "commit_interval_s") + ": expected 0 < value <= 0.25 s");
+    const double most = kMaxSampleWaitS - c.merge_delay_s;
+    if (!(**v > 0 && **v <= most + 1e-12)) {
+      return Status::InvalidArgument(Where(*doc, root, "commit_interval_s") + ": expected 0 < value <= " +
+                                     FormatSeconds(most) + " s (with the " + FormatSeconds(c.merge_delay_s) +
+                                     " s reorder window, a sample waits at most 0.25 s for its commit)");
     }
     c.commit_interval_s = **v;
+  }
+  if (auto v = GetNumber(*doc, root, "max_database_mb"); !v.ok()) {
+    return v.status();
+  } else if (*v) {
+    if (!(**v > 0)) return Status::InvalidArgument(Where(*doc, root, "max_database_mb") + ": expected a size > 0 MB");
+    c.max_database_mb = **v;
   }
   if (auto v = GetNumber(*doc, root, "reconnect_max_s"); !v.ok()) return v.status(); else if (*v) c.reconnect_max_s = **v;
   const toml::array* ports = root["port"].as_array();
@@ -671,6 +771,7 @@ Status RunDaemon(const DaemonConfig& config, const std::string& db_path, const v
                  const std::function<void(const std::string&)>& say) {
   storage::OpenOptions oo;
   oo.synchronous_full = true;  // a logger: each commit survives a power cut (docs/design.md)
+  oo.max_size_bytes = static_cast<std::int64_t>(config.max_database_mb * 1024 * 1024);
   Result<storage::Database> db = storage::Database::Open(config.database.empty() ? db_path : config.database, oo);
   if (!db.ok()) return db.status();
   Daemon d(config, *db, say);
@@ -678,6 +779,14 @@ Status RunDaemon(const DaemonConfig& config, const std::string& db_path, const v
 }
 
 Result<std::string> DaemonRequest(const std::string& socket_path, const std::string& request) {
+  // The protocol is one line per request: a label with a line break would otherwise carry
+  // a second request with it.
+  if (request.find_first_of(std::string("\r\n\0", 3)) != std::string::npos) {
+    std::string shown;
+    for (const char c : request) shown += c == '\n' ? "\\n" : c == '\r' ? "\\r" : c == '\0' ? "\\0" : std::string(1, c);
+    return Status::InvalidArgument("'" + shown + "': a line break or NUL in a request to the daemon; "
+                                   "expected one line (labels sent to the daemon cannot hold line breaks)");
+  }
   sockaddr_un addr{};
   addr.sun_family = AF_UNIX;
   if (socket_path.size() >= sizeof addr.sun_path) return Status::InvalidArgument(socket_path + ": path too long");

@@ -45,9 +45,12 @@ void RigLink::OnFrame(const Frame& f, std::int64_t) {
           info_ = std::move(r);
         } else if constexpr (std::is_same_v<T, SamplesMsg>) {
           const std::int64_t base = clock.Unwrap(m.t_base_us);
-          const IdentifyMsg* id = info_ ? &info_->ident : nullptr;
-          const double is = id ? id->current_scale : 1.0, io = id ? id->current_offset : 0.0;
-          const double vs = id ? id->voltage_scale : 1.0, vo = id ? id->voltage_offset : 0.0;
+          // Samples that arrive before IDENTIFY (a rig still streaming to a host that
+          // restarted) have no known scale: they are skipped, never stored as raw counts.
+          if (!info_) return;
+          const IdentifyMsg* id = &info_->ident;
+          const double is = id->current_scale, io = id->current_offset;
+          const double vs = id->voltage_scale, vo = id->voltage_offset;
           for (const AdcRecord& a : m.adc) {
             data_.adc.push_back({base + a.dt_us, is * a.current + io, vs * a.voltage + vo});
           }

@@ -28,6 +28,7 @@ Status RunWriter::Begin(const storage::NewRun& run, double t0,
   run_id_ = *id;
   t0_ = t0;
   total_ = 0;
+  committed_ = 0;
   last_t_ = 0;
   pending_.clear();
   events_.clear();
@@ -58,6 +59,7 @@ Status RunWriter::Flush() {
     db_->Rollback().ok();
     return s;  // the buffer is kept; the next Flush tries again
   }
+  committed_ += pending_.size();
   pending_.clear();
   events_.clear();
   return Status::Ok();

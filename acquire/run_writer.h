@@ -36,6 +36,8 @@ class RunWriter {
   Status Finish(storage::RunStatus status, const std::string& reason, double stream_t);
 
   std::size_t samples() const { return total_; }
+  /// Samples of this run whose commit has been acknowledged (they survive a crash).
+  std::size_t committed() const { return committed_; }
   double last_t() const { return last_t_; }  ///< run time of the newest sample
 
  private:
@@ -44,7 +46,7 @@ class RunWriter {
   double t0_ = 0;
   std::vector<model::Sample> pending_;
   std::vector<storage::RunEvent> events_;
-  std::size_t total_ = 0;
+  std::size_t total_ = 0, committed_ = 0;
   double last_t_ = 0;
 };
 

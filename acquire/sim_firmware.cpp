@@ -131,7 +131,9 @@ void SimFirmware::FlushSamples() {
   const bool sent = Queue(batch_, t_);
   if (log_) {
     // Records were stored with dt relative to base.
-    for (const AdcRecord& a : batch_.adc) std::fprintf(log_, "A,%lld,%d\n", static_cast<long long>(base + a.dt_us), sent);
+    for (const AdcRecord& a : batch_.adc) {
+      std::fprintf(log_, "A,%lld,%d,%d,%d\n", static_cast<long long>(base + a.dt_us), sent, a.current, a.voltage);
+    }
     for (std::uint16_t d : batch_.marks_dt_us) std::fprintf(log_, "M,%lld,%d\n", static_cast<long long>(base + d), sent);
   }
   batch_.adc.clear();
@@ -419,16 +421,29 @@ Result<EmissionLog> ReadEmissionLog(const std::string& path) {
     std::istringstream ss(line.substr(2));
     long long v = 0;
     char comma = 0;
+    if (line[0] == 'C') {  // "C,CLOCK_START_US,MONOTONIC_NS"
+      long long ns = 0;
+      if (ss >> v >> comma >> ns) {
+        log.clock_start_us = v;
+        log.monotonic_ns_at_start = ns;
+      }
+      continue;
+    }
     int sent = 0;
     ss >> v >> comma >> sent;
     if (line[0] == 'F') {
       (sent ? log.frames_sent : log.frames_dropped) += 1;
     } else if (line[0] == 'A' && sent) {
+      int i = 0, u = 0;
       log.adc_us.push_back(v);
+      if (ss >> comma >> i >> comma >> u) {
+        log.adc_counts.push_back({static_cast<std::int16_t>(i), static_cast<std::int16_t>(u)});
+      }
     } else if (line[0] == 'M' && sent) {
       log.marks_us.push_back(v);
     }
   }
+  if (log.adc_counts.size() != log.adc_us.size()) log.adc_counts.clear();  // an older log
   return log;
 }
 

@@ -140,12 +140,21 @@ class SimFirmware {
 };
 
 /// The device-side emission log written by SetEmissionLog (tests, benchmarks). Lines:
-/// "F,SEQ,SENT" per frame built, then "A,T_US,SENT" per ADC record and "M,T_US,SENT" per
-/// mark in it (T_US: device µs since its clock started, not wrapped; SENT: 1 or 0).
+/// "F,SEQ,SENT" per frame built, then "A,T_US,SENT,I,V" per ADC record (I, V: the raw
+/// counts sent) and "M,T_US,SENT" per mark in it (T_US: device µs since its clock started,
+/// not wrapped; SENT: 1 or 0). The runner (sim_runner.h) starts the log with
+/// "C,CLOCK_START_US,MONOTONIC_NS": the device clock's start value and the CLOCK_MONOTONIC
+/// reading (ns) at that instant, so a test can tell the rig's time at any moment of its own.
 struct EmissionLog {
+  struct Counts {
+    std::int16_t current, voltage;
+  };
   std::vector<std::int64_t> adc_us;    ///< every ADC record sent
+  std::vector<Counts> adc_counts;      ///< ... and its raw counts (same order; empty for old logs)
   std::vector<std::int64_t> marks_us;  ///< every mark sent
   std::uint64_t frames_sent = 0, frames_dropped = 0;
+  std::int64_t clock_start_us = 0;          ///< device clock at its start
+  std::int64_t monotonic_ns_at_start = -1;  ///< CLOCK_MONOTONIC then (-1: not logged)
 };
 Result<EmissionLog> ReadEmissionLog(const std::string& path);
 

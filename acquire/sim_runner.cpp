@@ -129,6 +129,11 @@ Status RunSimulator(const SimRigOptions& rig, const SimRunnerOptions& run,
 
   using Clock = std::chrono::steady_clock;
   const auto start = Clock::now();
+  if (log) {  // the device clock's origin on CLOCK_MONOTONIC (steady_clock on Linux)
+    std::fprintf(log.get(), "C,%lld,%lld\n", static_cast<long long>(rig.clock_start_us),
+                 static_cast<long long>(
+                     std::chrono::duration_cast<std::chrono::nanoseconds>(start.time_since_epoch()).count()));
+  }
   auto elapsed = [&] { return std::chrono::duration<double>(Clock::now() - start).count(); };
   double back_at = -1;  // while unplugged: when the cable goes back in (< 0 = never)
   bool unplugged = false, vanish_done = false, stall_done = false;

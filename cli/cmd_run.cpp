@@ -183,12 +183,15 @@ void AddRunCommands(CLI::App& app, Context& ctx) {
     ctx.action = [&ctx, so]() -> Status {
       Result<storage::Database> db = OpenForRead(ctx);
       if (!db.ok()) return db.status();
+      // One snapshot: the run record and its samples agree while a logger writes.
+      RB_RETURN_IF_ERROR(db->BeginRead());
       Result<storage::Run> r = db->GetRun(so->id);
       if (!r.ok()) return r.status();
       Result<std::vector<model::Sample>> samples = db->ReadSamples(so->id);
       if (!samples.ok()) return samples.status();
       Result<std::vector<storage::RunEvent>> events = db->ListEvents(so->id);
       if (!events.ok()) return events.status();
+      RB_RETURN_IF_ERROR(db->EndRead());
       ChannelStats sp, cu, vo;
       for (const model::Sample& x : *samples) {
         sp.Add(model::HasSpeed(x) ? units::RadPerSecToRpm(x.speed) : NAN);
@@ -249,10 +252,13 @@ void AddRunCommands(CLI::App& app, Context& ctx) {
     ctx.action = [&ctx, eo]() -> Status {
       Result<storage::Database> db = OpenForRead(ctx);
       if (!db.ok()) return db.status();
+      // One snapshot: the run record and its samples agree while a logger writes.
+      RB_RETURN_IF_ERROR(db->BeginRead());
       Result<storage::Run> r = db->GetRun(eo->id);
       if (!r.ok()) return r.status();
       Result<std::vector<model::Sample>> samples = db->ReadSamples(eo->id);
       if (!samples.ok()) return samples.status();
+      RB_RETURN_IF_ERROR(db->EndRead());
       std::string text;
       if (eo->format == "csv") {
         text = acquire::SamplesToCsv(*samples);

@@ -1,6 +1,7 @@
 // Opening, creating and migrating the database; transactions; maintenance.
 #include <sys/stat.h>
 
+#include <algorithm>
 #include <chrono>
 #include <cstdio>
 
@@ -84,6 +85,15 @@ const std::string& Database::path() const { return impl_->path; }
 int Database::schema_version() const { return impl_->version; }
 const std::string& Database::backup_path() const { return impl_->backup_path; }
 
+/// Caps the file at about `bytes` (this connection only): a write beyond fails like a full
+/// disk (SQLITE_FULL).
+[[gnu::noinline]] static Status LimitSize(Database::Impl& impl, std::int64_t bytes) {
+  Result<std::int64_t> page = PragmaInt(impl, "page_size");
+  if (!page.ok()) return page.status();
+  const std::int64_t pages = std::max<std::int64_t>(1, bytes / std::max<std::int64_t>(1, *page));
+  return impl.Exec("PRAGMA max_page_count=" + std::to_string(pages));
+}
+
 Result<Database> Database::Open(const std::string& path, const OpenOptions& options) {
   const bool existed = FileExists(path);
   if (!existed && (!options.create_if_missing || options.read_only)) {
@@ -135,6 +145,7 @@ Result<Database> Database::Open(const std::string& path, const OpenOptions& opti
                                                            : "PRAGMA synchronous=NORMAL"));
   }
   RB_RETURN_IF_ERROR(impl->Exec("PRAGMA foreign_keys=ON"));
+  if (options.max_size_bytes > 0 && !options.read_only) RB_RETURN_IF_ERROR(LimitSize(*impl, options.max_size_bytes));
 
   const int target = options.target_version > 0 ? options.target_version : kSchemaVersion;
   if (impl->version < target) {
@@ -180,6 +191,15 @@ Status Database::Commit() {
   if (s.ok()) impl_->in_txn = false;
   return s;
 }
+
+Status Database::BeginRead() {
+  if (impl_->in_txn) return Status::FailedPrecondition("transaction already open");
+  RB_RETURN_IF_ERROR(impl_->Exec("BEGIN DEFERRED"));
+  impl_->in_txn = true;
+  return Status::Ok();
+}
+
+Status Database::EndRead() { return Commit(); }
 
 Status Database::Rollback() {
   if (!impl_->in_txn) return Status::Ok();

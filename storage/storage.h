@@ -43,6 +43,9 @@ struct OpenOptions {
   /// PRAGMA synchronous: false = NORMAL (WAL: durable at checkpoint, never corrupt),
   /// true = FULL (each commit survives power loss).
   bool synchronous_full = false;
+  /// 0 = no limit; else the file may grow to about this many bytes (PRAGMA max_page_count,
+  /// this connection only) and writes beyond fail like a full disk (IOError, "... full").
+  std::int64_t max_size_bytes = 0;
 };
 
 enum class RunStatus { kRecording, kComplete, kInterrupted };
@@ -145,6 +148,10 @@ class Database {
   Status Begin();
   Status Commit();
   Status Rollback();
+  /// A read transaction (BEGIN DEFERRED ... COMMIT): every read until EndRead sees one WAL
+  /// snapshot, so a run record and its samples agree while a logger writes.
+  Status BeginRead();
+  Status EndRead();
 
   // ---- Motors
   Result<std::int64_t> AddMotor(const std::string& label, const std::string& batch,

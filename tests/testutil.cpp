@@ -97,4 +97,9 @@ std::string ReadFile(const std::string& path) {
 
 std::string Fixture(const std::string& name) { return std::string(ROTORBENCH_FIXTURES) + "/" + name; }
 
+bool LongTier() {
+  const char* e = std::getenv("ROTORBENCH_STRESS");
+  return e && *e && std::string(e) != "0";
+}
+
 }  // namespace rb::testing

@@ -39,4 +39,8 @@ std::string ReadFile(const std::string& path);
 /// Path of a file in fixtures/.
 std::string Fixture(const std::string& name);
 
+/// True in the long test tier (`scripts/stress` sets ROTORBENCH_STRESS=1): tests that try
+/// to break the promises run with large counts there and small ones by default.
+bool LongTier();
+
 }  // namespace rb::testing

@@ -254,3 +254,36 @@ TEST_CASE("sample chunk codec: exact round trip and corruption detection") {
   back.clear();
   CHECK(DecodeSampleChunk(std::string_view(blob).substr(0, 33), &back).code() == Code::kCorruption);
 }
+
+TEST_CASE("a read transaction sees one snapshot: a run record and its samples agree while a writer appends") {
+  TempDir dir;
+  const std::string path = dir.File("r.db");
+  auto w = Database::Open(path);
+  REQUIRE(w.ok());
+  auto motor = w->AddMotor("m", "", "");
+  REQUIRE(motor.ok());
+  NewRun nr;
+  nr.motor_id = *motor;
+  nr.started_utc = "2026-12-01T00:00:00.000Z";
+  auto run = w->BeginRun(nr);
+  REQUIRE(run.ok());
+  const auto all = Ramp(300);
+  REQUIRE(w->AppendSamples(*run, std::span(all).first(100)).ok());
+  OpenOptions ro;
+  ro.read_only = true;
+  auto r = Database::Open(path, ro);
+  REQUIRE(r.ok());
+  REQUIRE(r->BeginRead().ok());
+  auto before = r->GetRun(*run);
+  REQUIRE(before.ok());
+  CHECK(before->sample_count == 100);
+  // The writer commits 200 more samples between the reader's two reads.
+  REQUIRE(w->AppendSamples(*run, std::span(all).subspan(100)).ok());
+  auto samples = r->ReadSamples(*run);
+  REQUIRE(samples.ok());
+  CHECK(samples->size() == 100);  // the same snapshot as the run record
+  REQUIRE(r->EndRead().ok());
+  auto after = r->ReadSamples(*run);
+  REQUIRE(after.ok());
+  CHECK(after->size() == 300);  // a new read sees the commit
+}
