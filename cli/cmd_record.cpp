@@ -5,9 +5,12 @@
 
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "acquire/calibrate.h"
 #include "acquire/recorder.h"
+#include "fit/fit.h"
+#include "qa/qa.h"
 #include "cli/output.h"
 #include "cli/context.h"
 #include "cli/signals.h"
@@ -36,11 +39,33 @@ bool AskYesNo(const std::string& question) {
   return !line.empty() && (line[0] == 'y' || line[0] == 'Y');
 }
 
+namespace {
+
+/// record --spec: fits the runs just recorded, stores the fit, prints the verdict.
+Status FitAndCheck(storage::Database& db, const std::string& motor, const acquire::RecordSummary& sum,
+                   const qa::Spec& spec, const qa::CheckOptions& check_options) {
+  fit::FitOptions fo;
+  for (const auto& run : sum.runs) fo.run_ids.push_back(run.id);
+  Result<fit::FitSummary> f = fit::FitMotor(db, motor, fo);
+  if (!f.ok()) return f.status().WithPrefix("fit of the runs just recorded");
+  Result<std::int64_t> id = fit::StoreFit(db, *f);
+  if (!id.ok()) return id.status();
+  qa::MotorCheck check = qa::CheckFit(*f, spec, check_options);
+  check.fit_id = *id;
+  fmt::print("fit {} stored ({} runs, {:.0f} ms)\n", *id, fo.run_ids.size(), f->solve_seconds * 1e3);
+  fmt::print("{}", qa::FormatCheck(check));
+  return Status::Ok();
+}
+
+}  // namespace
+
 void AddRecordCommands(CLI::App& app, Context& ctx) {
   struct Opts {
     std::string port;
     acquire::RecordOptions rec;
     int baud = 115200;
+    std::string spec;  // --spec: fit the new runs and print the verdict
+    std::string rule = "guard-band";
   };
   auto o = std::make_shared<Opts>();
   CLI::App* r = app.add_subcommand(
@@ -66,9 +91,23 @@ void AddRecordCommands(CLI::App& app, Context& ctx) {
   r->add_option("--supply-note", o->rec.supply_note, "Free text about the supply");
   r->add_option("--ambient-note", o->rec.ambient_note, "Free text about the surroundings");
   r->add_option("--baud", o->baud, "Baud rate for UART rigs (ignored by USB and PTYs)");
+  r->add_option("--spec", o->spec,
+                "After the last run: fit the runs just recorded, store the fit and print the verdict "
+                "against this spec (see docs/qa-spec.md)");
+  r->add_option("--rule", o->rule, "Decision rule for --spec: guard-band (default) or simple");
   r->callback([&ctx, o] {
     ctx.action = [&ctx, o]() -> Status {
       RB_RETURN_IF_ERROR(acquire::ValidateRecordOptions(o->rec));
+      std::optional<qa::Spec> spec;
+      qa::CheckOptions check_options;
+      if (!o->spec.empty()) {  // a bad spec is refused before the motor turns
+        Result<qa::Spec> sp = qa::LoadSpec(o->spec);
+        if (!sp.ok()) return sp.status();
+        spec = std::move(*sp);
+        Result<qa::DecisionRule> rule = qa::ParseRule(o->rule);
+        if (!rule.ok()) return rule.status().WithPrefix("--rule");
+        check_options.rule = *rule;
+      }
       storage::OpenOptions oo;
       oo.synchronous_full = true;  // a logger: each commit survives a power cut
       Result<storage::Database> db = storage::Database::Open(ctx.db_path, oo);
@@ -112,7 +151,8 @@ void AddRecordCommands(CLI::App& app, Context& ctx) {
                  c.frames, c.frames_lost, c.seq_gaps, c.bad_crc, c.truncated, c.malformed, c.garbage_bytes);
       if (sum->interrupted) return Status::Interrupted("stopped by the user; output off, open run kept as interrupted");
       if (!sum->stopped.empty()) return Status::FailedPrecondition("plan stopped: " + sum->stopped);
-      return Status::Ok();
+      if (!spec) return Status::Ok();
+      return FitAndCheck(*db, o->rec.motor_label, *sum, *spec, check_options);
     };
   });
 

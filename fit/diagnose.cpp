@@ -77,6 +77,10 @@ std::string Suggest(int i, const Have& h, int partner = -1) {
   }
   switch (i) {
     case model::kR:
+      if (h.locked) {
+        return "add locked-rotor pulses at more rotor positions (the resistance varies with the "
+               "segments the brushes touch) and calibrate the current sensor";
+      }
       return "add a locked-rotor run (several short pulses at different rotor positions) or a "
              "spin-up with current and terminal voltage logged";
     case model::kKe:
@@ -210,10 +214,20 @@ Result<FitSummary> FitRuns(const std::vector<RunData>& runs, const FitOptions& o
       const ParamResult &a = S.params[static_cast<size_t>(i)], &b = S.params[static_cast<size_t>(k)];
       if (!a.fitted || !b.fitted || !a.identified || !b.identified) continue;
       if (std::fabs(corr(i, k)) > kCorrWarn) {
-        add(Sev::kWarning, Name(i),
-            fmt::format("{} and {} are hard to tell apart in these runs (correlation {:+.3f})",
-                        Words(i), Words(k), corr(i, k)),
-            Suggest(i, have, k));
+        // Strongly correlated but both well determined: the covariance carries the link into
+        // every derived figure, so this is worth knowing, not a warning.
+        const double worst = std::max(E.rel_se[static_cast<size_t>(i)], E.rel_se[static_cast<size_t>(k)]);
+        if (worst < kRelSeWarn / 10) {
+          add(Sev::kInfo, Name(i),
+              fmt::format("{} and {} are strongly correlated in these runs ({:+.3f}), but both are "
+                          "determined to within {:.2g} %; derived figures carry the correlation",
+                          Words(i), Words(k), corr(i, k), 100 * worst));
+        } else {
+          add(Sev::kWarning, Name(i),
+              fmt::format("{} and {} are hard to tell apart in these runs (correlation {:+.3f})",
+                          Words(i), Words(k), corr(i, k)),
+              Suggest(i, have, k));
+        }
       }
     }
   }

@@ -191,9 +191,11 @@ Result<PreparedRun> PrepareRun(const RunData& run) {
           "{}: sample {}: time is not a finite number; expected seconds since the run started",
           name, k + 1));
     }
-    if (k > 0 && !(s.t > run.samples[k - 1].t)) {
+    // Two instruments may read at the same instant (the logger never reorders): equal
+    // times are fine, a step back in time is not.
+    if (k > 0 && s.t < run.samples[k - 1].t) {
       return Status::InvalidArgument(fmt::format(
-          "{}: sample {}: time {} s is not after {} s; expected strictly increasing time", name,
+          "{}: sample {}: time {} s is before {} s; expected non-decreasing time", name,
           k + 1, s.t, run.samples[k - 1].t));
     }
     for (auto [v, what] : {std::pair{s.speed, "speed"}, std::pair{s.current, "current"},
