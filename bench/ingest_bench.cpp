@@ -40,6 +40,17 @@ std::vector<std::uint8_t> Stream(std::size_t samples) {
   std::mt19937 rng(1);
   std::uint32_t t = 0;
   std::uint16_t seq = 0;
+  acquire::IdentifyMsg id;  // the host keeps no sample before the rig has identified itself
+  id.serial = 1;
+  id.adc_rate_mhz = 2000000;
+  id.tach_resolution_ns = 1000;
+  id.marks_per_rev = 2;
+  id.output_full_scale = 1000;
+  id.current_scale = 1e-3f;
+  id.voltage_scale = 4e-3f;
+  id.supply_volts = 6;
+  id.name = "bench";
+  acquire::EncodeFrame(seq++, t, id, &w);
   for (std::size_t n = 0; n < samples; n += 20) {
     acquire::SamplesMsg m;
     m.t_base_us = t;
