@@ -94,7 +94,8 @@ std::vector<std::uint8_t> Bytes(const Frame& f) {
 }  // namespace
 
 TEST_CASE("every protocol test vector decodes to the frames vectors.json describes") {
-  for (const json& v : Vectors()["vectors"]) {
+  const json all = Vectors();  // kept alive: a range-for over a temporary's member dangles
+  for (const json& v : all["vectors"]) {
     const std::string name = v["name"];
     CAPTURE(name);
     std::vector<Frame> got;
