@@ -25,6 +25,7 @@
 #include "acquire/run_writer.h"
 #include "acquire/tach.h"
 #include "acquire/toml_util.h"
+#include "base/text.h"
 #include "base/time_util.h"
 #include "storage/storage.h"
 
@@ -733,7 +734,7 @@ Result<DaemonConfig> LoadDaemonConfig(const std::string& path) {
     const std::string where = Where(*doc, *t, "path");
     if (p.path.empty()) return Status::InvalidArgument(where + ": a [[port]] needs path");
     if (p.protocol != "rig" && p.protocol != "text") {
-      return Status::InvalidArgument(where + ": protocol '" + p.protocol + "'; expected rig or text");
+      return Status::InvalidArgument(where + ": protocol '" + Printable(p.protocol) + "'; expected rig or text");
     }
     if (auto v = GetNumber(*doc, *t, "baud"); !v.ok()) return v.status(); else if (*v) p.baud = static_cast<int>(**v);
     Result<std::optional<std::string>> ins = GetString(*doc, *t, "instrument");

@@ -1,6 +1,8 @@
-// Regressions found by fuzzing plain-text instrument maps and lines (fuzz/text_line_fuzz.cpp).
+// Regressions found by fuzzing plain-text instrument maps and lines (fuzz/text_line_fuzz.cpp)
+// and the daemon config (fuzz/daemon_config_fuzz.cpp).
 #include <doctest/doctest.h>
 
+#include "acquire/daemon.h"
 #include "acquire/text_instrument.h"
 #include "tests/testutil.h"
 
@@ -32,4 +34,18 @@ TEST_CASE("a text instrument reading 'inf' or 'nan' is refused, not stored") {
   auto ok = rb::acquire::ParseTextLine(*map, "0.52", 0.0);
   REQUIRE(ok.ok());
   CHECK((*ok)->current == 0.52);
+}
+
+TEST_CASE("regression (fuzzing): a daemon config's unknown protocol is quoted on one line") {
+  // Found by fuzz/daemon_config_fuzz.cpp: a protocol name holding a carriage return was
+  // quoted raw, splitting the error message.
+  const std::string path =
+      rb::testing::Fixture("fuzz/daemon_config/regression-control-char-in-protocol.toml");
+  auto cfg = rb::acquire::LoadDaemonConfig(path);
+  REQUIRE_FALSE(cfg.ok());
+  const std::string& m = cfg.status().message();
+  CHECK(m.rfind(path + ":", 0) == 0);
+  CHECK(m.find("expected rig or text") != std::string::npos);
+  CHECK(m.find('\n') == std::string::npos);
+  CHECK(m.find('\r') == std::string::npos);
 }
