@@ -96,29 +96,39 @@ Result<std::uint16_t> RigLink::Send(const Message& cmd) {
 }
 
 Result<AckMsg> RigLink::Command(const Message& cmd, int timeout_ms) {
-  Result<std::uint16_t> seq = Send(cmd);
-  if (!seq.ok()) return seq.status();
-  const auto deadline = Clock::now() + std::chrono::milliseconds(timeout_ms);
-  while (true) {
-    if (auto it = acks_.find(*seq); it != acks_.end()) {
-      const AckMsg a = it->second;
-      acks_.erase(it);
-      if (a.result != proto::kAckOk) {
-        return Status::FailedPrecondition(port_->name() + ": rig answered '" +
-                                          AckResultName(a.result) + "' to " +
-                                          TypeName(TypeOf(cmd)));
+  // A command or its ACK can be lost on the wire; the host retries (firmware-protocol.md).
+  // Real-rig commands are idempotent, so a resend is safe; the simulator's own commands are
+  // sent once.
+  const bool sim_only = std::holds_alternative<SimShaftCmd>(cmd) || std::holds_alternative<SimFaultCmd>(cmd);
+  const int sends = sim_only ? 1 : 3;
+  std::vector<std::uint16_t> sent;
+  for (int attempt = 0; attempt < sends; ++attempt) {
+    Result<std::uint16_t> seq = Send(cmd);
+    if (!seq.ok()) return seq.status();
+    sent.push_back(*seq);
+    const auto deadline = Clock::now() + std::chrono::milliseconds(timeout_ms);
+    while (true) {
+      for (std::uint16_t s : sent) {
+        auto it = acks_.find(s);
+        if (it == acks_.end()) continue;
+        const AckMsg a = it->second;
+        acks_.erase(it);
+        if (a.result != proto::kAckOk) {
+          return Status::FailedPrecondition(port_->name() + ": rig answered '" +
+                                            AckResultName(a.result) + "' to " +
+                                            TypeName(TypeOf(cmd)));
+        }
+        return a;
       }
-      return a;
+      const auto left =
+          std::chrono::duration_cast<std::chrono::milliseconds>(deadline - Clock::now()).count();
+      if (left <= 0) break;
+      RB_RETURN_IF_ERROR(Poll(static_cast<int>(std::min<long>(left, 20))));
     }
-    const auto left =
-        std::chrono::duration_cast<std::chrono::milliseconds>(deadline - Clock::now()).count();
-    if (left <= 0) {
-      return Status::IOError(port_->name() + ": no answer to " + TypeName(TypeOf(cmd)) +
-                             " within " + std::to_string(timeout_ms) +
-                             " ms; expected an ACK (is this a rotorbench rig?)");
-    }
-    RB_RETURN_IF_ERROR(Poll(static_cast<int>(std::min<long>(left, 20))));
   }
+  return Status::IOError(port_->name() + ": no answer to " + TypeName(TypeOf(cmd)) + " within " +
+                         std::to_string(timeout_ms) + " ms, " + std::to_string(sends) +
+                         (sends == 1 ? " try" : " tries") + "; expected an ACK (is this a rotorbench rig?)");
 }
 
 Result<RigInfo> RigLink::Identify(int timeout_ms, int tries) {

@@ -48,7 +48,7 @@ TEST_CASE("calibrate zero and shunt recover the simulated current sensor's offse
   CHECK(std::stod(z.out.substr(at + 7)) == doctest::Approx(0.010).epsilon(0.2));
 }
 
-TEST_CASE("calibrate tach against the simulated motor's closed-form speed; record links it") {
+TEST_CASE("calibrate tach against the simulated motor's closed-form speed, record links it") {
   TempDir dir;
   const std::string db = dir.File("b.db"), link = dir.File("rig");
   Child sim({ROTORBENCH_BIN, "rig-sim", "--link", link, "--friction", "2", "--max-seconds", "60"}, dir.File("sim.log"));

@@ -34,7 +34,7 @@ TEST_CASE("default header, empty cells mean no reading, values become SI") {
   CHECK(r->voltage_readings == 2);
 }
 
-TEST_CASE("any subset of channels but time; CRLF, BOM, spaces and quotes are fine") {
+TEST_CASE("any subset of channels but time, CRLF, BOM, spaces and quotes are fine") {
   auto r = Parse("\xEF\xBB\xBFtime_s, current_a\r\n0.0, 1.5\r\n\r\n\"0.1\",\"1.25\"\r\n");
   REQUIRE(r.ok());
   CHECK(r->samples.size() == 2);

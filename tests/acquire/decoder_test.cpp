@@ -206,7 +206,7 @@ TEST_CASE("each kind of damage moves its own counter") {
   }
 }
 
-TEST_CASE("sequence gaps count the frames lost; a jump back counts as a reset") {
+TEST_CASE("sequence gaps count the frames lost, a jump back counts as a reset") {
   std::vector<std::uint8_t> w;
   for (int s : {65533, 65534, 65535, 0, 1, 5, 6, 2}) EncodeFrame(static_cast<std::uint16_t>(s), 0, PingCmd{0}, &w);
   FrameDecoder dec([](const Frame&, std::int64_t) {});

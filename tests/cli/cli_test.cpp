@@ -162,7 +162,7 @@ TEST_CASE("bad input: one-line error naming the place, exit != 0, database uncha
   CHECK(r.err.find("absent.db: no such database") != std::string::npos);
 }
 
-TEST_CASE("--help and --version work on every command; $ROTORBENCH_DB sets the default") {
+TEST_CASE("--help and --version work on every command, $ROTORBENCH_DB sets the default") {
   for (const auto& args : std::vector<std::vector<std::string>>{
            {"--help"}, {"motor", "--help"}, {"motor", "add", "--help"}, {"import", "--help"},
            {"run", "list", "--help"}, {"export", "--help"}, {"simulate", "--help"}}) {

@@ -13,7 +13,7 @@
 using namespace rb::model;
 
 TEST_CASE(
-    "η_max = (1 − √(I0/Is))² at I = √(I0·Is); I0 = 0.1 A, Is = 10 A → 0.81 at 1.0 A "
+    "η_max = (1 − √(I0/Is))² at I = √(I0·Is), I0 = 0.1 A, Is = 10 A → 0.81 at 1.0 A "
     "(textbook relation, domain.md §2.4 check value)") {
   MotorParams p;
   p.R = 1.2;  // Is = V/R = 10 A at 12 V
@@ -29,7 +29,7 @@ TEST_CASE(
 
 TEST_CASE(
     "P_max = (V − I0·R)²/(4R): 606.80 W with I0 = 0, 575.95 W with I0 = 1.25 A "
-    "(V = 50 V, R = 1.03 Ω; domain.md §2.4 check values)") {
+    "(V = 50 V, R = 1.03 Ω, domain.md §2.4 check values)") {
   MotorParams p;
   p.R = 1.03;
   p.Ke = 0.2215;
@@ -129,7 +129,7 @@ TEST_CASE(
 
 TEST_CASE(
     "textbook worked example (domain.md §2.5): at 1700 r/min from 48 V, Ia = 8.3166 A, "
-    "P_mech = 327.955 W; P_out 288.05 W (loss ∝ ω²) or 278.66 W (loss ∝ ω)") {
+    "P_mech = 327.955 W, P_out 288.05 W (loss ∝ ω²) or 278.66 W (loss ∝ ω)") {
   const double w = rb::units::RpmToRadPerSec(1700.0);
   CheckToDigits(w, 178.0236, 1e-4);
   for (bool squared : {false, true}) {
@@ -155,7 +155,7 @@ TEST_CASE(
 
 TEST_CASE(
     "η_max = (1 − √(I0/Is))² at I = √(I0·Is) and P_max = (V − I0·R)²/(4R) at "
-    "I = (Is + I0)/2 over a range of motors (textbook relations, domain.md §2.4; "
+    "I = (Is + I0)/2 over a range of motors (textbook relations, domain.md §2.4, "
     "constant-loss-current model: b = 0, brush drop lumped into the supply)") {
   for (double i0_over_is : {1e-4, 1e-3, 0.01, 0.05, 0.2, 0.5}) {
     for (double vb : {0.0, 0.7}) {
@@ -341,8 +341,8 @@ TEST_CASE(
 }
 
 TEST_CASE(
-    "curves with bands: values are the torque–speed curve; at no load the band equals "
-    "the no-load figures' uncertainty; along the curve, the current band is that of "
+    "curves with bands: values are the torque–speed curve, at no load the band equals "
+    "the no-load figures' uncertainty, along the curve, the current band is that of "
     "i(T) = (Ke·(T + Tc) + b·(V − Vb))/(Kt·Ke + b·R), solved by hand from the two "
     "steady-state equations") {
   MotorEstimate e;

@@ -19,7 +19,7 @@ RunScript Script(RunKind k, double v, double dur) {
 }
 }  // namespace
 
-TEST_CASE("same seed, same run; another seed, another run") {
+TEST_CASE("same seed, same run, another seed, another run") {
   const RunScript s = Script(RunKind::kSpinUp, 6.0, 0.3);
   auto a = SimulateRun(DemoBench(7), s);
   auto b = SimulateRun(DemoBench(7), s);

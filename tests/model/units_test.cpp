@@ -8,7 +8,7 @@
 
 using namespace rb::units;
 
-TEST_CASE("Kv·Kt = 60/(2π) in (rpm/V)·(N·m/A) for any Ke (identity; domain.md §0)") {
+TEST_CASE("Kv·Kt = 60/(2π) in (rpm/V)·(N·m/A) for any Ke (identity, domain.md §0)") {
   for (double ke : {1e-4, 6.2e-3, 0.01, 0.2215, 3.0}) {
     const double kv = KeToKvRpmPerVolt(ke);
     const double kt = ke;  // Kt = Ke in SI units (power balance)

@@ -126,7 +126,7 @@ TEST_CASE("sizes between table rows get an interpolated build, monotone in diame
   for (int n = 18; n <= 40; ++n) CHECK(AwgWire(n, Insulation::kHeavy)->od_nom > AwgWire(n, Insulation::kSingle)->od_nom);
 }
 
-TEST_CASE("wire specs: AWG<n>, <d>mm, optional insulation; bad ones name the text") {
+TEST_CASE("wire specs: AWG<n>, <d>mm, optional insulation, bad ones name the text") {
   Result<Wire> w = ParseWire("AWG27");
   REQUIRE(w.ok());
   CHECK(w->awg == 27);

@@ -24,7 +24,7 @@ TEST_CASE("binomial OC against domain.md §6.1 check values") {
   }
 }
 
-TEST_CASE("binomial OC closed forms: c = 0 is (1 − p)^n; c ≥ n accepts always") {
+TEST_CASE("binomial OC closed forms: c = 0 is (1 − p)^n, c ≥ n accepts always") {
   for (int n : {1, 7, 50, 400}) {
     for (double p : {0.001, 0.03, 0.2}) {
       CHECK(BinomialAcceptance(n, 0, p) == doctest::Approx(std::pow(1 - p, n)).epsilon(1e-12));

@@ -107,7 +107,7 @@ TEST_CASE(
 }
 
 TEST_CASE(
-    "two fits (before and after a rewind): curves overlaid, constants compared; Kv "
+    "two fits (before and after a rewind): curves overlaid, constants compared, Kv "
     "changes by +20 % and R by −30.6 % for 1.2× turns (Ke ∝ N, R ∝ N², domain.md §3.1)") {
   const ReportInput in = SimulatedReportInput(ShortPlan(), /*rewound=*/true);
   Result<ReportSummary> rep = BuildReport(in);
@@ -135,8 +135,8 @@ TEST_CASE(
 }
 
 TEST_CASE(
-    "poorly determined constants are called out in words; runs without a prediction say "
-    "why; bad requests fail with one-line messages") {
+    "poorly determined constants are called out in words, runs without a prediction say "
+    "why, bad requests fail with one-line messages") {
   ReportInput in = SimulatedReportInput(ShortPlan(), false);
   fit::ParamResult& tc = in.fits[0].summary.params[model::kTc];
   tc.u_combined = 0.4 * tc.value;
@@ -161,7 +161,7 @@ TEST_CASE(
 
 TEST_CASE(
     "a constant the runs could not determine (NaN, as the fitter reports it) is said so "
-    "in words; nothing prints as nan") {
+    "in words, nothing prints as nan") {
   ReportInput in = SimulatedReportInput(ShortPlan(), false);
   fit::FitSummary& s = in.fits[0].summary;
   s.params[model::kJ].value = NAN;

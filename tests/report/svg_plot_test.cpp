@@ -167,7 +167,7 @@ TEST_CASE(
   CHECK(svg.size() < 200000);
 }
 
-TEST_CASE("dots: one per occupied half-pixel, NaN skipped; lines break at NaN") {
+TEST_CASE("dots: one per occupied half-pixel, NaN skipped, lines break at NaN") {
   Figure f;
   f.id = "d";
   Panel p;
@@ -197,7 +197,7 @@ TEST_CASE("dots: one per occupied half-pixel, NaN skipped; lines break at NaN") 
   CHECK(std::count(l.begin(), l.end(), 'L') == 2);
 }
 
-TEST_CASE("legend: one entry per label and shape; unlabelled series stay out") {
+TEST_CASE("legend: one entry per label and shape, unlabelled series stay out") {
   Figure f = OneLine({0, 1}, {0, 1});
   f.panels[0].series[0].label = "fit 7";
   Series band{"±2u band", Style::kBand, "", {0, 1}, {0, 0.5}, {1, 1.5}};
@@ -216,7 +216,7 @@ TEST_CASE("legend: one entry per label and shape; unlabelled series stay out") {
   CHECK(count(">max power<") == 1);
 }
 
-TEST_CASE("histogram bars count values per bin; values outside the range are left out") {
+TEST_CASE("histogram bars count values per bin, values outside the range are left out") {
   const std::vector<double> v = {0.1, 0.2, 0.25, 0.5, 0.55, 0.9, 1.0, -1, 2, NAN};
   const Series h = HistogramSeries(v, 0, 1, 4, "units");
   REQUIRE(h.x.size() == 5);
@@ -246,7 +246,7 @@ TEST_CASE("histogram bars count values per bin; values outside the range are lef
   CHECK(svg.find(">LSL<") != std::string::npos);
 }
 
-TEST_CASE("colours: the palette cycles; HTML escaping covers quotes") {
+TEST_CASE("colours: the palette cycles, HTML escaping covers quotes") {
   CHECK(std::string(SeriesColour(0)) == SeriesColour(7));
   CHECK(std::string(SeriesColour(0)) != SeriesColour(1));
   CHECK(EscapeHtml("a<b>&\"c'") == "a&lt;b&gt;&amp;&quot;c&#39;");

@@ -126,7 +126,7 @@ TEST_CASE("rewind plan: bad input gives one line naming the option and a non-zer
   CHECK(RunRotorbench({"--db", db, "rewind", "show", "--plan", "1"}).exit_code != 0);
 }
 
-TEST_CASE("rewind suggest: Kv and speed targets; bad target forms are refused") {
+TEST_CASE("rewind suggest: Kv and speed targets, bad target forms are refused") {
   TempDir dir;
   const std::string db = MakeDb(dir);
   json j = Json(RunRotorbench({"--db", db, "rewind", "suggest", "--from-fit", "1", "--old",
@@ -152,7 +152,7 @@ TEST_CASE("rewind suggest: Kv and speed targets; bad target forms are refused") 
   }
 }
 
-TEST_CASE("rewind verify: a stored fit as planned matches; 20 % fewer turns does not") {
+TEST_CASE("rewind verify: a stored fit as planned matches, 20 % fewer turns does not") {
   TempDir dir;
   const std::string db = MakeDb(dir);
   const json plan = Json(RunRotorbench({"--db", db, "rewind", "plan", "--from-fit", "1", "--old",

@@ -53,7 +53,7 @@ model::MotorEstimate FreeRunEstimate(const model::MotorParams& p) {
 
 }  // namespace
 
-TEST_CASE("fan operating point: c = 0 gives the no-load point; the balance holds on a load") {
+TEST_CASE("fan operating point: c = 0 gives the no-load point, the balance holds on a load") {
   const model::MotorParams p = model::DemoMotor();
   const LoadedPoint free = FanOperatingPoint(p, 0.0, 6.0, 0.0);
   const model::Characteristics c = model::ComputeCharacteristics(p, 6.0);

@@ -52,7 +52,7 @@ Plan MakePlan(const fit::FitSummary& baseline_fit) {
 
 }  // namespace
 
-TEST_CASE("round trip: fitted baseline → plan → fitted rewound motor; verdicts and hints") {
+TEST_CASE("round trip: fitted baseline → plan → fitted rewound motor, verdicts and hints") {
   const model::BenchModel base = model::DemoBench(5);
   const Plan plan = MakePlan(FitBench(base, 5));
   const double a29 = model::AwgWire(29)->Area();

@@ -103,7 +103,7 @@ TEST_CASE("verify: one coil reversed → does not match, one coil reversed") {
   CHECK(v.hints.front().cause == "one coil reversed");
 }
 
-TEST_CASE("verify: a wire one size thinner → wrong wire; a poor joint → poor joint") {
+TEST_CASE("verify: a wire one size thinner → wrong wire, a poor joint → poor joint") {
   const Plan plan = MakePlan();
   model::MotorParams m = Planned(plan);
   m.R *= model::AwgWire(29)->Area() / model::AwgWire(30)->Area();  // AWG30 wound instead

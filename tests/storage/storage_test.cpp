@@ -51,7 +51,7 @@ TEST_CASE("a new file gets the current schema, WAL and our application id") {
   sqlite3_close(raw);
 }
 
-TEST_CASE("an older schema is backed up, then migrated; the data survives") {
+TEST_CASE("an older schema is backed up, then migrated, the data survives") {
   TempDir dir;
   const std::string path = dir.File("old.db");
   {
